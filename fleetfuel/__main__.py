@@ -1,0 +1,9 @@
+"""``python -m fleetfuel``."""
+
+from __future__ import annotations
+
+import sys
+
+from fleetfuel.cli import main
+
+sys.exit(main())

@@ -1,0 +1,75 @@
+"""Thin command-line verbs over the library: ``fleetfuel <verb> ...``.
+
+One ``_add_<verb>`` (arguments) and one ``_cmd_<verb>`` (build config, call the library, print,
+return an exit code) per verb. :class:`~fleetfuel.errors.FleetFuelError` is caught once, in
+:func:`main`, and printed as one line on stderr.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from collections.abc import Callable, Sequence
+
+from fleetfuel import __version__
+from fleetfuel.errors import FleetFuelError
+
+EXIT_OK = 0
+EXIT_NO_USABLE_INPUT = 3
+EXIT_SOME_INPUT_FAILED = 7  # with --strict
+
+Command = Callable[[argparse.Namespace], int]
+
+
+def _add_inspect(sub: argparse._SubParsersAction) -> None:
+    p = sub.add_parser("inspect", help="read and clean logs; print a per-file data-quality table")
+    p.add_argument("paths", nargs="+", help="log files, folders (searched recursively) or globs")
+    p.add_argument("--profile", help="force an ingest profile: a bundled NAME or a PATH to a TOML file")
+    p.add_argument("--json", action="store_true", help="print the table as JSON")
+    p.add_argument("--strict", action="store_true", help="non-zero exit when any file failed")
+    p.set_defaults(func=_cmd_inspect)
+
+
+def _cmd_inspect(args: argparse.Namespace) -> int:
+    from fleetfuel import pipeline
+    from fleetfuel.report import quality
+
+    result = pipeline.inspect_paths(args.paths, profile=args.profile)
+    print(quality.account_json(result) if args.json else quality.account_text(result))
+    for failure in result.failures:
+        print(f"fleetfuel: {failure.path}: {failure.error}", file=sys.stderr)
+    if not result.files:
+        return EXIT_NO_USABLE_INPUT
+    if args.strict and result.failures:
+        return EXIT_SOME_INPUT_FAILED
+    return EXIT_OK
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="fleetfuel",
+        description="Forecast fuel and energy of candidate vehicle specs on the routes your fleet drives.",
+    )
+    parser.add_argument("--version", action="version", version=f"fleetfuel {__version__}")
+    sub = parser.add_subparsers(dest="verb", metavar="VERB")
+    for add in (_add_inspect,):
+        add(sub)
+    return parser
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Run the CLI; returns the process exit code (tests call this directly)."""
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    if not getattr(args, "func", None):
+        parser.print_help()
+        return EXIT_OK
+    func: Command = args.func
+    try:
+        return func(args)
+    except FleetFuelError as exc:
+        print(f"fleetfuel: {exc}", file=sys.stderr)
+        return type(exc).exit_code
+    except KeyboardInterrupt:
+        print("fleetfuel: interrupted", file=sys.stderr)
+        return 130

@@ -1,0 +1,1 @@
+"""cycles stage."""
