@@ -35,13 +35,30 @@ def _cmd_inspect(args: argparse.Namespace) -> int:
     from fleetfuel.report import quality
 
     result = pipeline.inspect_paths(args.paths, profile=args.profile)
-    print(quality.account_json(result) if args.json else quality.account_text(result))
+    print(quality.account_json(result.account) if args.json else quality.account_text(result.account))
     for failure in result.failures:
         print(f"fleetfuel: {failure.path}: {failure.error}", file=sys.stderr)
-    if not result.files:
+    if not result.usable_files:
         return EXIT_NO_USABLE_INPUT
     if args.strict and result.failures:
         return EXIT_SOME_INPUT_FAILED
+    return EXIT_OK
+
+
+def _add_demo(sub: argparse._SubParsersAction) -> None:
+    p = sub.add_parser("demo", help="run fleetfuel on the bundled sample fleet into ./fleetfuel-demo/")
+    p.add_argument("--out", default="fleetfuel-demo", help="output folder (default: ./fleetfuel-demo)")
+    p.set_defaults(func=_cmd_demo)
+
+
+def _cmd_demo(args: argparse.Namespace) -> int:
+    from pathlib import Path
+
+    from fleetfuel import demo
+
+    written = demo.run_demo(Path(args.out))
+    for path in written:
+        print(f"wrote {path}")
     return EXIT_OK
 
 
@@ -52,7 +69,7 @@ def build_parser() -> argparse.ArgumentParser:
     )
     parser.add_argument("--version", action="version", version=f"fleetfuel {__version__}")
     sub = parser.add_subparsers(dest="verb", metavar="VERB")
-    for add in (_add_inspect,):
+    for add in (_add_inspect, _add_demo):
         add(sub)
     return parser
 

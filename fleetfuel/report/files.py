@@ -1,0 +1,26 @@
+"""Write output files atomically: a failed run leaves no half-written output."""
+
+from __future__ import annotations
+
+import os
+import tempfile
+from pathlib import Path
+
+
+def write_text_atomic(path: Path, text: str) -> Path:
+    """Write ``text`` (UTF-8) to ``path`` through a temporary file in the same folder, then rename."""
+    return write_bytes_atomic(path, text.encode("utf-8"))
+
+
+def write_bytes_atomic(path: Path, data: bytes) -> Path:
+    """Write ``data`` to ``path`` through a temporary file in the same folder, then rename."""
+    path.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", dir=path.parent)
+    try:
+        with os.fdopen(fd, "wb") as handle:
+            handle.write(data)
+        os.replace(tmp, path)
+    except BaseException:
+        Path(tmp).unlink(missing_ok=True)
+        raise
+    return path
