@@ -62,6 +62,54 @@ def _cmd_demo(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
+def _add_envelope(sub: argparse._SubParsersAction) -> None:
+    p = sub.add_parser("envelope", help="top speed, grades, startability and acceleration of a vehicle spec")
+    p.add_argument("spec", help="vehicle spec TOML file")
+    p.add_argument("--payload-kg", type=float, default=None, help="payload (default: the spec's payload_kg)")
+    p.add_argument("--json", action="store_true", help="print the envelope as JSON")
+    p.set_defaults(func=_cmd_envelope)
+
+
+def _cmd_envelope(args: argparse.Namespace) -> int:
+    import json
+
+    from fleetfuel.simulate.envelope import envelope_text, performance_envelope
+    from fleetfuel.simulate.spec import load_spec
+
+    envelope = performance_envelope(load_spec(args.spec), payload_kg=args.payload_kg)
+    print(json.dumps(envelope.to_dict(), indent=2) if args.json else envelope_text(envelope))
+    return EXIT_OK
+
+
+def _add_simulate(sub: argparse._SubParsersAction) -> None:
+    p = sub.add_parser("simulate", help="fuel or energy of one vehicle spec over one speed-time cycle file")
+    p.add_argument("--cycle", required=True, help="cycle CSV: time_s, speed_m_s or speed_kmh, optional grade or elevation_m")
+    p.add_argument("--spec", required=True, help="vehicle spec TOML file")
+    p.add_argument("--payload-kg", type=float, default=None, help="payload (default: the spec's payload_kg)")
+    p.add_argument("--json", action="store_true", help="print the totals as JSON")
+    p.set_defaults(func=_cmd_simulate)
+
+
+def _cmd_simulate(args: argparse.Namespace) -> int:
+    import json
+
+    from fleetfuel.simulate import load_spec, simulate_trace
+    from fleetfuel.simulate.cycle import read_cycle
+    from fleetfuel.simulate.trace import totals_text
+
+    spec = load_spec(args.spec)
+    cycle = read_cycle(args.cycle)
+    result = simulate_trace(cycle.time_s, cycle.speed_m_s, cycle.grade, spec, payload_kg=args.payload_kg,
+                            elevation_m=cycle.elevation_m)
+    if args.json:
+        head = {"spec": spec.name, "cycle": str(args.cycle), "payload_kg": result.payload_kg,
+                "grade_source": cycle.grade_source}
+        print(json.dumps({**head, **result.totals.as_dict()}, indent=2))
+    else:
+        print(totals_text(result, cycle=str(args.cycle)))
+    return EXIT_OK
+
+
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="fleetfuel",
@@ -69,7 +117,7 @@ def build_parser() -> argparse.ArgumentParser:
     )
     parser.add_argument("--version", action="version", version=f"fleetfuel {__version__}")
     sub = parser.add_subparsers(dest="verb", metavar="VERB")
-    for add in (_add_inspect, _add_demo):
+    for add in (_add_inspect, _add_demo, _add_envelope, _add_simulate):
         add(sub)
     return parser
 

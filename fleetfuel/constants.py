@@ -21,6 +21,8 @@ ISA_SEA_LEVEL_DENSITY_KG_M3: Final = 1.225  # ISO 2533:1975, at 15 degC and 1013
 ISA_TROPOSPHERE_LAPSE_K_M: Final = 0.0065  # ISO 2533:1975, 0 to 11 km geopotential
 DRY_AIR_GAS_CONSTANT_J_KG_K: Final = 287.05287  # ISO 2533:1975 (R* / M for dry air)
 CELSIUS_ZERO_K: Final = 273.15  # SI Brochure, 9th ed. (2019), definition of degC
+ISA_EARTH_RADIUS_M: Final = 6356766.0  # ISO 2533:1975, nominal radius for geopotential altitude
+ISA_TROPOPAUSE_GEOPOTENTIAL_M: Final = 11000.0  # ISO 2533:1975, top of the troposphere layer
 
 # --- The WGS-84 ellipsoid -------------------------------------------------------------------
 WGS84_SEMI_MAJOR_AXIS_M: Final = 6378137.0  # NIMA TR8350.2 (WGS 84), 3rd ed., defining parameter

@@ -44,3 +44,8 @@ class CycleError(FleetFuelError, ValueError):
     """A trace cannot be cut into trips or cycles (for example: too little driving)."""
 
     exit_code = 6
+
+
+class InternalError(RuntimeError):
+    """A broken invariant inside fleetfuel (e.g. the row account does not add up): a bug, never
+    bad input. Deliberately NOT a :class:`FleetFuelError`, so it escapes with its traceback."""

@@ -33,12 +33,14 @@ from fleetfuel.errors import ProfileError
 
 # Exact definitions (NIST SP 811, Appendix B.8 and B.9).
 INTERNATIONAL_FOOT_M: Final = 0.3048
+INCH_M: Final = 0.0254
 INTERNATIONAL_MILE_M: Final = 1609.344
 NAUTICAL_MILE_M: Final = 1852.0
 US_GALLON_L: Final = 3.785411784
 IMPERIAL_GALLON_L: Final = 4.54609
 POUND_KG: Final = 0.45359237
 SECONDS_PER_HOUR: Final = 3600.0
+BAR_PA: Final = 1.0e5  # NIST SP 811, Appendix B.8: 1 bar = 100 kPa, exact
 
 
 @dataclass(frozen=True, slots=True)

@@ -2,10 +2,14 @@
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import Any
 
+import numpy as np
 import pandas as pd
+import pyarrow as pa
 
 from fleetfuel import schema
 
@@ -65,7 +69,7 @@ def empty_raw_frame() -> pd.DataFrame:
     """An empty raw canonical frame with every column and dtype of :data:`schema.RAW_COLUMNS`."""
     columns: dict[str, pd.Series] = {}
     for name in schema.RAW_COLUMNS:
-        if name in (schema.VEHICLE_ID, schema.SOURCE_FILE):
+        if name in schema.STRING_COLUMNS:
             columns[name] = pd.Series([], dtype="string")
         elif name == schema.TIME_UTC:
             columns[name] = pd.Series([], dtype="datetime64[ns, UTC]")
@@ -76,20 +80,41 @@ def empty_raw_frame() -> pd.DataFrame:
     return pd.DataFrame(columns)
 
 
-def conform(samples: pd.DataFrame) -> pd.DataFrame:
-    """Return ``samples`` with every raw canonical column, in order and with canonical dtypes.
+def conform(columns: Mapping[str, Any], n: int | None = None) -> pd.DataFrame:
+    """The raw canonical frame from a frame or a mapping of column arrays.
 
-    Missing signal columns are added as NaN; extra columns are dropped.
+    Every :data:`schema.RAW_COLUMNS` column comes out in order with its canonical dtype; missing
+    signal columns are NaN (strings NA). Extra columns are dropped, except a clean-frame column
+    the file already carries (a cycle file's ``grade``), kept as float64 after them. Built from
+    arrays without a round trip through Python objects (2 M timestamps stay milliseconds).
+
+    Parameters
+    ----------
+    columns : DataFrame or Mapping
+        Column name -> array-like of equal length.
+    n : int, optional
+        Row count; needed only when ``columns`` is empty.
     """
-    out = {}
+    if n is None:
+        if isinstance(columns, pd.DataFrame):
+            n = len(columns)
+        else:
+            n = len(next(iter(columns.values()))) if columns else 0
     template = empty_raw_frame()
-    n = len(samples)
+    out: dict[str, Any] = {}
     for name in schema.RAW_COLUMNS:
         dtype = template[name].dtype
-        if name in samples.columns:
-            out[name] = samples[name].astype(dtype).to_numpy() if n else samples[name].astype(dtype)
+        if name in columns:
+            out[name] = pd.Series(columns[name], copy=False).astype(dtype).array
+        elif dtype == "string":
+            out[name] = pd.arrays.ArrowStringArray(pa.chunked_array([pa.nulls(n, pa.string())]))
+        elif name == schema.TIME_UTC:
+            out[name] = pd.DatetimeIndex(np.full(n, np.datetime64("NaT", "ns")), tz="UTC").array
+        elif name == schema.SOURCE_ROW:
+            out[name] = np.full(n, -1, dtype=np.int64)
         else:
-            out[name] = pd.Series([pd.NA if dtype == "string" else float("nan")] * n, dtype=dtype)
-    frame = pd.DataFrame(out)
-    frame.index = pd.RangeIndex(n)
-    return frame
+            out[name] = np.full(n, np.nan)
+    for name in schema.CLEAN_EXTRA_COLUMNS:
+        if name in columns:
+            out[name] = np.asarray(columns[name], dtype=np.float64)
+    return pd.DataFrame(out, index=pd.RangeIndex(n), copy=False)
