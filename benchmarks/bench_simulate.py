@@ -13,9 +13,10 @@ Threads are pinned to one (OMP/OpenBLAS/MKL/numba env vars set before numpy is i
 process bound to one CPU where the OS allows). Times are CPU seconds of this process
 (``time.process_time``), best of ``--repeat`` runs, so other work on the machine disturbs less.
 
-The year trace is, in order of preference, the standard cycles in ``../shared/reference_cycles``
-(every ``*.csv``, read with the ingest reader, concatenated until 2.5 M s), or a seeded numpy
-stop-and-go trace when that folder is absent; the script prints which.
+The year trace is, in order of preference: the synthetic fleet's 40 t tractor (``fleetfuel.synth``,
+10 seeded days of 1 Hz drives with their road grade, tiled to 2.5 M s); the standard cycles in
+``../shared/reference_cycles`` (read with the ingest reader, concatenated); a seeded numpy
+stop-and-go trace. The script prints which it used.
 
 Usage: ``python benchmarks/bench_simulate.py [--steps N] [--year-s N] [--repeat K] [--spec FILE]``
 """
@@ -86,7 +87,7 @@ def ours(spec: VehicleSpec, speed: np.ndarray, accel: np.ndarray, force: np.ndar
     for start in range(0, speed.size, BLOCK):
         sl = slice(start, start + BLOCK)
         grid = evaluate_gears(spec, speed[sl], accel[sl], force[sl], extra)
-        fuel = model.fuel_rate_g_s(grid.engine_speed_rpm(spec.engine), np.minimum(grid.engine_torque_nm, grid.full_load_nm))
+        fuel = model.fuel_rate_g_s(grid.engine_speed_rpm(), np.minimum(grid.engine_torque_nm, grid.full_load_nm))
         total += float(fuel.sum())
     return total
 
@@ -103,28 +104,51 @@ def baseline(spec: VehicleSpec, speed: np.ndarray, accel: np.ndarray, force: np.
     omega = speed[:, None] / radius * ratios[None, :]
     rpm = omega / RPM_RAD_S
     torque = np.where(force[:, None] >= 0, force[:, None] * radius / (ratios * eta), force[:, None] * radius * eta / ratios)
-    torque = torque + spec.auxiliary.power_kw * KW_W / np.maximum(omega, engine.idle_speed_rpm * RPM_RAD_S)
+    with np.errstate(divide="ignore"):
+        torque = torque + np.where(omega > 0, spec.auxiliary.power_kw * KW_W / omega, 0.0)
     full = max_torque_nm(engine, rpm)
     points = np.stack((np.clip(rpm, grid.speed_rpm[0], grid.speed_rpm[-1]),
                        np.clip(np.minimum(torque, full), grid.torque_nm[0], grid.torque_nm[-1])), axis=-1)
     return float(interp(points).sum())
 
 
-def year_trace(seconds: int) -> tuple[np.ndarray, np.ndarray, str]:
-    """Time and speed of ``seconds`` of driving: reference cycles concatenated, else numpy."""
+def synth_tractor_trace(seconds: int) -> tuple[np.ndarray, np.ndarray, np.ndarray, str] | None:
+    """1 Hz driving of the synthetic fleet's first 40 t tractor (fleetfuel.synth), tiled; None if unavailable."""
+    try:
+        from fleetfuel import synth
+
+        truth = synth.fleet(n_vehicles=3, n_days=10, seed=SEED, with_truth=True).truth
+        plan = next(p for p in synth.ROSTER if p.vehicle_class == "tractor_40t" and p.logger.rate_hz == 1.0)
+        drives = truth[truth["vehicle_id"] == plan.vehicle_id]
+        speed = drives["speed_m_s"].to_numpy(dtype=np.float64)
+        grade = drives["grade"].to_numpy(dtype=np.float64)
+    except (ImportError, AttributeError, KeyError, StopIteration, TypeError) as exc:
+        print(f"(fleetfuel.synth not usable here: {exc.__class__.__name__}: {exc})")
+        return None
+    if speed.size == 0:
+        return None
+    reps = seconds // speed.size + 1
+    label = f"fleetfuel.synth: {plan.vehicle_id} ({plan.duty} duty), 10 days of 1 Hz drives tiled x{reps}"
+    return np.arange(seconds, dtype=np.float64), np.tile(speed, reps)[:seconds], np.tile(grade, reps)[:seconds], label
+
+
+def year_trace(seconds: int) -> tuple[np.ndarray, np.ndarray, np.ndarray | None, str]:
+    """Time, speed and grade of ``seconds`` of 1 Hz driving: synth, else reference cycles, else numpy."""
+    made = synth_tractor_trace(seconds)
+    if made is not None:
+        return made
     files = sorted(SHARED_CYCLES.glob("*.csv")) if SHARED_CYCLES.is_dir() else []
     if files:
         from fleetfuel.simulate.cycle import read_cycle
 
-        parts = [read_cycle(path).speed_m_s for path in files]
-        one = np.concatenate(parts)
+        one = np.concatenate([read_cycle(path).speed_m_s for path in files])
         speed = np.tile(one, seconds // one.size + 1)[:seconds]
         names = ", ".join(p.stem for p in files)
-        return np.arange(seconds, dtype=np.float64), speed, f"reference cycles ({names}) concatenated"
+        return np.arange(seconds, dtype=np.float64), speed, None, f"reference cycles ({names}) concatenated"
     rng = np.random.default_rng(SEED)
     cruise = rng.uniform(8.0, 25.0, seconds // 120 + 1).repeat(120)[:seconds]
     ramp = np.minimum(1.0, np.mod(np.arange(seconds), 120) / 20.0) * np.minimum(1.0, np.mod(-np.arange(seconds), 120) / 20.0)
-    return np.arange(seconds, dtype=np.float64), cruise * ramp, "seeded numpy stop-and-go trace (reference cycles absent)"
+    return np.arange(seconds, dtype=np.float64), cruise * ramp, None, "seeded numpy stop-and-go trace"
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -152,16 +176,17 @@ def main(argv: list[str] | None = None) -> int:
     print(f"  ratio      {base_s / ours_s:8.2f} x   (target >= 4)   fuel checksums agree to "
           f"{abs(check_ours / check_base - 1):.1e}")
 
-    time_s, speed_m_s, source = year_trace(args.year_s)
+    time_s, speed_m_s, grade, source = year_trace(args.year_s)
     cfg = SimConfig()
     simulate_trace(time_s[:5000], speed_m_s[:5000], None, spec, cfg=cfg)  # warm-up (compilation)
-    year_cpu = best_cpu_s(lambda: simulate_trace(time_s, speed_m_s, None, spec, cfg=cfg), args.repeat)
-    result = simulate_trace(time_s, speed_m_s, None, spec, cfg=cfg)
+    year_cpu = best_cpu_s(lambda: simulate_trace(time_s, speed_m_s, grade, spec, cfg=cfg), args.repeat)
+    result = simulate_trace(time_s, speed_m_s, grade, spec, cfg=cfg)
     print(f"vehicle-year: {args.year_s:,} s of 1 Hz driving from {source}")
     print(f"  simulate_trace (rpm_window shifts): {year_cpu:.3f} s   (target <= 1 s)   "
-          f"{result.totals.distance_km:,.0f} km, {result.totals.gear_changes:,} gear changes")
+          f"{result.totals.distance_km:,.0f} km, {result.totals.gear_changes:,} gear changes, "
+          f"{result.totals.fuel_l_per_100km:.1f} L/100 km, short {result.totals.shortfall_s:,.0f} s")
     eff_cfg = SimConfig(shift_strategy="best_efficiency")
-    eff_cpu = best_cpu_s(lambda: simulate_trace(time_s, speed_m_s, None, spec, cfg=eff_cfg), args.repeat)
+    eff_cpu = best_cpu_s(lambda: simulate_trace(time_s, speed_m_s, grade, spec, cfg=eff_cfg), args.repeat)
     print(f"  simulate_trace (best_efficiency, fuel in all gears): {eff_cpu:.3f} s")
     return 0
 

@@ -20,6 +20,7 @@ from typing import Any, TypeVar
 from fleetfuel.clean.config import CleanConfig
 from fleetfuel.errors import ConfigError
 from fleetfuel.ingest.config import IngestConfig
+from fleetfuel.segment.config import SegmentConfig
 
 T = TypeVar("T")
 
@@ -30,6 +31,7 @@ class RunConfig:
 
     ingest: IngestConfig = field(default_factory=IngestConfig)
     clean: CleanConfig = field(default_factory=CleanConfig)
+    segment: SegmentConfig = field(default_factory=SegmentConfig)
 
 
 def _coerce(value: Any, annotation: Any, where: str) -> Any:

@@ -5,11 +5,14 @@ same fleetfuel version rewrites the same bytes. It writes, next to this script:
 
 - ``depot_tracker_week.csv.gz``   vans and one tractor unit, one multi-vehicle CSV (profile depot_tracker_csv)
 - ``fleet_portal/<ID>_<date>.csv`` rigid trucks, one file per vehicle and day (profile fleet_portal_csv)
-- ``phone_gpx/<ID>_<date>.gpx``   the pool car, a phone's GPX 1.1 tracks (GPX reader)
+- ``phone_gpx/<date>/<ID>.gpx``   the pool car, a phone's GPX 1.1 tracks (GPX reader)
 - ``buses_week.parquet``          the city buses (profile bus_parquet)
 - ``event_logger_TRK-02.csv``     a tractor unit on a low-rate event logger (profile event_logger_csv)
-- ``TRUTH.csv``    each vehicle-day's true route, class, distance and truth fuel
-- ``DEFECTS.csv``  every injected defect, by file and data row (0-based, header excluded)
+- ``TRUTH.tab``    each vehicle-day's true route, class, distance and truth fuel (tab-separated)
+- ``DEFECTS.tab``  every injected defect, by file and data row (0-based, header excluded; tab-separated)
+
+The truth tables have the suffix ``.tab`` on purpose: no reader picks them up as logs, so
+``fleetfuel inspect sample_logs/`` sees the exports only.
 - ``README.md``    the scenario, the vehicles and routes, the defects and the file sizes
 
 Every regeneration adds to the repository's size: regenerate only when the generator changes.
@@ -17,6 +20,7 @@ Every regeneration adds to the repository's size: regenerate only when the gener
 
 from __future__ import annotations
 
+import re
 import sys
 from dataclasses import dataclass
 from pathlib import Path
@@ -27,9 +31,10 @@ import pandas as pd
 HERE = Path(__file__).resolve().parent
 sys.path.insert(0, str(HERE.parent))
 
+from readme_text import write_readme  # noqa: E402  (sibling module of this script)
+
 from fleetfuel import schema, synth  # noqa: E402
 from fleetfuel.synth.export import write_export, write_gpx, write_parquet  # noqa: E402
-from readme_text import write_readme  # noqa: E402  (sibling module of this script)
 
 SEED = 20250310
 N_DAYS = 5
@@ -89,9 +94,17 @@ def _defect_rows(inj: synth.InjectedDefects, frame: pd.DataFrame, file_row: np.n
     for _, m in inj.unit_mixup.iterrows():
         add("unit_mixup", int(m.first_row), int(m.last_row), f"speed x {m.factor:.6f}")
     for _, g in inj.gaps.iterrows():
-        if g.next_row >= 0:
-            add("gap", int(g.next_row), int(g.next_row),
-                f"{g.rows_removed} rows removed from {g.start_utc.isoformat()} to {g.end_utc.isoformat()}")
+        # where the missing rows would be: the row after the gap in the same file, or the end of
+        # the file of the row before it (a gap closing a day file)
+        detail = f"{g.rows_removed} rows removed from {g.start_utc.isoformat()} to {g.end_utc.isoformat()}"
+        nxt = int(g.next_row)
+        same = np.flatnonzero(ids == g.vehicle_id)
+        prev = int(same[same < nxt][-1]) if nxt >= 0 and (same < nxt).any() else (int(same[-1]) if nxt < 0 else -1)
+        if nxt >= 0 and (prev < 0 or file_of[prev] == file_of[nxt]):
+            add("gap", nxt, nxt, detail)
+        else:
+            add("gap", prev, prev, detail)
+            out[-1]["first_row"] = out[-1]["last_row"] = int(file_row[prev]) + 1
     drop = inj.altitude_dropout_rows
     if len(drop):
         starts = np.r_[0, np.flatnonzero(np.diff(drop) != 1) + 1]
@@ -128,7 +141,7 @@ def _write_layout(layout: str, frame: pd.DataFrame) -> tuple[list[Written], list
             name = f"fleet_portal/{vid}_{date}.csv"
             write_export(part, layout, HERE / name, decimals=DECIMALS[layout])
         else:
-            name = f"phone_gpx/{vid}_{date}.gpx"
+            name = f"phone_gpx/{date}/{vid}.gpx"  # the file stem is the vehicle id (default id rule)
             write_gpx(part, HERE / name, name=f"{vid} {date}")
         file_of[idx] = k
         file_row[idx] = np.arange(len(idx))
@@ -137,7 +150,7 @@ def _write_layout(layout: str, frame: pd.DataFrame) -> tuple[list[Written], list
 
 
 def main() -> int:
-    for old in [*HERE.glob("fleet_portal/*.csv"), *HERE.glob("phone_gpx/*.gpx")]:
+    for old in [*HERE.glob("fleet_portal/*.csv"), *HERE.glob("phone_gpx/*/*.gpx"), *HERE.glob("*.csv")]:
         old.unlink()
     result = synth.fleet(n_days=N_DAYS, seed=SEED, start_date=START_DATE, with_truth=False)
     samples = result.samples
@@ -151,16 +164,17 @@ def main() -> int:
         files, _, file_of, file_row = _write_layout(layout, damaged)
         written += files
         defects += _defect_rows(inj, damaged, file_row, file_of, [f.path for f in files], layout)
-    file_of_vehicle_day = {(w.vehicles[0], w.path.split("_")[-1][:10]): w.path for w in written if len(w.vehicles) == 1}
+    file_of_vehicle_day = {(w.vehicles[0], re.search(r"\d{4}-\d{2}-\d{2}", w.path).group(0)): w.path
+                           for w in written if len(w.vehicles) == 1 and re.search(r"\d{4}-\d{2}-\d{2}", w.path)}
     truth = result.days.merge(result.vehicles, on="vehicle_id")
     truth["file"] = [file_of_vehicle_day.get((v, d), next(w.path for w in written if v in w.vehicles))
                      for v, d in zip(truth.vehicle_id, truth.date, strict=True)]
     truth = truth[["vehicle_id", "vehicle_class", "description", "duty", "date", "route_name", "route_kind",
                    "start_utc", "end_utc", "distance_km", "fuel_l", "rows", "rate_hz", "fuel_counter_step_l",
                    "layout", "file"]].rename(columns={"fuel_l": "truth_fuel_l", "rows": "rows_generated"})
-    truth.to_csv(HERE / "TRUTH.csv", index=False, float_format="%.3f", lineterminator="\n")
+    truth.to_csv(HERE / "TRUTH.tab", sep="\t", index=False, float_format="%.3f", lineterminator="\n")
     table = pd.DataFrame(defects).sort_values(["file", "first_row", "defect"], kind="stable")
-    table.to_csv(HERE / "DEFECTS.csv", index=False, lineterminator="\n")
+    table.to_csv(HERE / "DEFECTS.tab", sep="\t", index=False, lineterminator="\n")
     write_readme(HERE, truth, table, [(w.path, w.layout, w.vehicles, w.rows) for w in written], SEED)
     total = sum((HERE / w.path).stat().st_size for w in written)
     print(f"wrote {len(written)} files, {sum(w.rows for w in written)} rows, {total / 1e6:.1f} MB of logs")

@@ -36,7 +36,7 @@ No real place, company or product is meant. The coordinates lie in the open Atla
 Fuel counters (where a vehicle has one) come from the generator's truth fuel model
 (`fleetfuel/synth/truth.py`), deliberately **not** fleetfuel's own vehicle model: a power-based
 fuel-rate formula with its own coefficients, engine-on idle, fuel cut-off on overrun, a
-cold-start surcharge, and per-day and time-correlated multiplicative noise. `TRUTH.csv` gives the
+cold-start surcharge, and per-day and time-correlated multiplicative noise. `TRUTH.tab` gives the
 exact truth fuel of each vehicle-day, for calibration tests.
 
 """
@@ -48,18 +48,21 @@ fleetfuel inspect sample_logs/
 ```
 
 Each CSV or Parquet layout has a bundled ingest profile (top-level `ingest/`), picked from the
-header. GPX files are one vehicle each; their id is the file stem by default (`CAR-01_2025-03-10`);
-to group them as one vehicle, use `IngestConfig(vehicle_id_rule="name_regex",
-vehicle_id_value="^(?P<id>[A-Z]+-[0-9]+)_")`.
+header. GPX files hold one vehicle each, one folder per day; the file stem is the vehicle id
+(`phone_gpx/2025-03-12/CAR-01.gpx`), which is the readers' default id rule.
 
 ## Truth files
 
-- `TRUTH.csv`: one row per vehicle and day: class, duty, true route name and kind, start and end
+Both are tab-separated text (`pandas.read_csv(path, sep="\t")`), with the suffix `.tab` so
+that no log reader picks them up.
+
+- `TRUTH.tab`: one row per vehicle and day: class, duty, true route name and kind, start and end
   (UTC), distance, truth fuel (exact, unquantised), rows generated (before defects), logging
   rate, fuel counter resolution, layout and file.
-- `DEFECTS.csv`: every injected defect: file, vehicle, kind, first and last **data row** of the
+- `DEFECTS.tab`: every injected defect: file, vehicle, kind, first and last **data row** of the
   file (0-based, header excluded: the readers' `source_row`), UTC times and details. For a gap,
-  the row is the first one after it.
+  the row is where the missing rows would be: the first row after the gap, or the file's row
+  count when the gap closes a day's file.
 
 """
 

@@ -10,7 +10,7 @@ from __future__ import annotations
 from dataclasses import dataclass, fields
 from typing import Final
 
-from fleetfuel.constants import STANDARD_GRAVITY_M_S2
+from fleetfuel.constants import ADHESION_DRY_ASPHALT, STANDARD_GRAVITY_M_S2
 from fleetfuel.errors import ConfigError
 from fleetfuel.units import SECONDS_PER_HOUR
 
@@ -45,10 +45,15 @@ class CleanConfig:
         Horizontal position error allowed on top of the jump speed. [m]
     standstill_speed_m_s : float
         Speeds below this are standstill (speed set to 0, position held). [m/s]
-    parked_radius_m : float
-        Positions staying within this extent over ``parked_window_s`` are parked drift. [m]
+    creep_speed_m_s : float
+        Runs of speeds below this are examined for parked drift. [m/s]
+    creep_window_s : float
+        ... speeds averaged over this window first. [s]
     parked_window_s : float
-        Window of the position-only standstill test. [s]
+        Shortest such run that can be parked drift. [s]
+    drift_progress_share : float
+        A run whose straight-line progress is below this share of the distance its speeds claim
+        is parked drift (:mod:`fleetfuel.clean.parked`). [1]
     reconcile_min_speed_m_s : float
         Reported vs position speeds are compared only on samples faster than this. [m/s]
     reconcile_min_samples : int
@@ -77,8 +82,12 @@ class CleanConfig:
         Elevations above this are out of reach of roads (aircraft flag). [m]
     grade_step_m : float
         Distance grid of the elevation filter. [m]
+    elevation_outlier_window_m : float
+        Window of the running median that elevation outliers are judged against. [m]
+    elevation_outlier_m : float
+        Elevations further than this from that median are outliers (refilled). [m]
     grade_despike_m : float
-        Width of the running median over distance (removes dropouts and spikes). [m]
+        Width of the running median over distance (removes short glitches and spikes). [m]
     grade_penalty_m3 : float
         Weight of the l1 penalty on grade changes in the trend filter
         (:mod:`fleetfuel.clean.elevation`). Larger: flatter. [m^3]
@@ -98,9 +107,10 @@ class CleanConfig:
     # 250 km/h: most fast cars are electronically limited there; trucks (N2/N3) are limited to
     # 90 km/h in the EU (Directive 92/6/EEC as amended by 2002/85/EC, from memory).
     speed_ceiling_m_s: float = 250.0 * KMH_M_S
-    # One g: tyre-road peak adhesion on dry asphalt is 0.8-0.9 (Wong, Theory of Ground Vehicles,
-    # 4th ed., Table 1.3, from memory), so no road vehicle's speed changes faster.
-    accel_limit_m_s2: float = STANDARD_GRAVITY_M_S2
+    # Tyre-road peak adhesion on dry asphalt, 0.8 g (constants.ADHESION_DRY_ASPHALT: Wong, Theory
+    # of Ground Vehicles, 4th ed., Table 1.3, from memory): a speed spike brakes AND accelerates
+    # at least this hard within a second, and no truck, van or fleet car accelerates at 0.8 g.
+    accel_limit_m_s2: float = ADHESION_DRY_ASPHALT * STANDARD_GRAVITY_M_S2
     spike_max_s: float = 10.0  # glitches last a few samples (common practice, no source)
     position_jump_factor: float = 1.5  # common practice, no source
     # Consumer GNSS horizontal error is a few metres (95 %) in the open; 20 m covers urban
@@ -109,8 +119,10 @@ class CleanConfig:
 
     # --- standstill and parked drift -------------------------------------------------------------
     standstill_speed_m_s: float = 0.5  # below typical GNSS speed noise (common practice, no source)
-    parked_radius_m: float = 10.0  # GNSS drift while parked stays within ~10 m (common practice, no source)
-    parked_window_s: float = 20.0  # common practice, no source
+    creep_speed_m_s: float = 3.0  # above GNSS drift speeds at standstill (common practice, no source)
+    creep_window_s: float = 10.0  # common practice, no source
+    parked_window_s: float = 60.0  # common practice, no source
+    drift_progress_share: float = 0.5  # common practice, no source
 
     # --- reported vs position speed ---------------------------------------------------------------
     reconcile_min_speed_m_s: float = 5.0  # common practice, no source
@@ -134,11 +146,17 @@ class CleanConfig:
 
     # --- elevation and grade ----------------------------------------------------------------------
     grade_step_m: float = 20.0  # finer than any grade change a vehicle feels (common practice, no source)
+    elevation_outlier_window_m: float = 1000.0  # common practice, no source
+    # Within a 1 km window a road deviates from its running median by at most grade * 250 m
+    # (25 m at 10 %, at a summit); 50 m covers grades up to 20 % (common practice, no source).
+    elevation_outlier_m: float = 50.0
     grade_despike_m: float = 150.0  # longer than altitude glitches at road speed (common practice, no source)
     # Chosen on the synthetic generator's GNSS altitude error (4 m, 60 s correlation, 1 m steps):
-    # flat roads stay under 1 m/km of climb, hills of 60 m and more keep their height
-    # (measured in tests/clean/test_elevation.py; no outside source).
-    grade_penalty_m3: float = 2.0e6
+    # flat roads stay under 1 m/km of climb (0.43-0.69 m/km over 12 drives), an exact 60 m hill
+    # over 1.5 km keeps 98 % of its height, 30 m over 1 km 71 %; 1e6 keeps more of small hills
+    # (79 %) but lets 0.86 m/km through; 2e6 the reverse (65 %, 0.62 m/km). Measured in
+    # tests/clean/test_clean_elevation.py; no outside source.
+    grade_penalty_m3: float = 1.5e6
     grade_window_m: float = 60.0  # about a truck's wheelbase plus length (common practice, no source)
     # Steepest public streets are about 0.35; design limits of main roads 0.06-0.12 (AASHTO Green Book,
     # from memory); smoothed grades beyond 0.25 are noise.
@@ -159,6 +177,8 @@ class CleanConfig:
             raise ConfigError(
                 f"clean.low_rate_interval_s must exceed step_s = {self.step_s} s, found {self.low_rate_interval_s}"
             )
-        for name in ("reconcile_tolerance", "unit_ratio_tolerance", "aircraft_fast_share", "grade_limit"):
+        shares = ("reconcile_tolerance", "unit_ratio_tolerance", "aircraft_fast_share", "grade_limit",
+                  "drift_progress_share")
+        for name in shares:
             if not getattr(self, name) < 1:
                 raise ConfigError(f"clean.{name}: must be < 1, found {getattr(self, name)!r}")

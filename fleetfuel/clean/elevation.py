@@ -10,8 +10,11 @@ opposite bug. The method, for one stretch of a log (no break inside):
    driven distance and averaged per bin; time spent standing still therefore counts once (a
    parked receiver's wandering altitude is averaged, not drawn as a cliff). Empty bins (fast
    driving, dropouts) are filled by linear interpolation.
-2. **Robust despiking.** A running median over ``grade_despike_m`` removes dropouts to zero,
-   spikes and short altitude glitches (Tukey 1977).
+2. **Robust despiking.** Bins further than ``elevation_outlier_m`` from the running median over
+   ``elevation_outlier_window_m`` are dropped and refilled (a receiver's cold-start altitude,
+   dropouts to zero or below sea level: no road rises that much within the window), then a
+   running median over ``grade_despike_m`` removes short glitches and spikes (Tukey 1977;
+   Hampel 1974 for the outlier rule).
 3. **l1 trend filtering** (Kim, Koh, Boyd and Gorinevsky 2009): the profile :math:`x` minimises
 
    .. math:: \tfrac12 \int (y - x)^2 \, ds + \mu \sum_k |g_{k+1} - g_k|,
@@ -40,6 +43,7 @@ keeps more detail.
 
 References
 ----------
+Hampel, F. R. (1974). The influence curve and its role in robust estimation. JASA 69, 383-393.
 Kim, S.-J., Koh, K., Boyd, S. and Gorinevsky, D. (2009). l1 trend filtering. SIAM Review
 51(2), 339-360. doi:10.1137/070690274
 Tukey, J. W. (1977). Exploratory Data Analysis. Addison-Wesley (running medians).
@@ -208,7 +212,8 @@ def grade_profile(distance_m: npt.ArrayLike, elevation_m: npt.ArrayLike, cfg: Cl
     elevation_m : array_like
         Elevation as read (NaN in dropouts). [m]
     cfg : CleanConfig
-        ``grade_step_m``, ``grade_despike_m``, ``grade_penalty_m3``, ``grade_window_m``, ``grade_limit``.
+        ``grade_step_m``, ``elevation_outlier_window_m``, ``elevation_outlier_m``, ``grade_despike_m``,
+        ``grade_penalty_m3``, ``grade_window_m``, ``grade_limit``.
 
     Returns
     -------
@@ -229,6 +234,11 @@ def grade_profile(distance_m: npt.ArrayLike, elevation_m: npt.ArrayLike, cfg: Cl
     if binned.size < 3:
         level = np.where(fin, float(np.mean(z[ok])), np.nan)
         return GradeProfile(level, np.where(fin, 0.0, np.nan), none, 0.0)
+    reference = ndimage.median_filter(binned, size=_odd(cfg.elevation_outlier_window_m / ds), mode="reflect")
+    good = np.abs(binned - reference) <= cfg.elevation_outlier_m
+    if good.any() and not good.all():
+        cells = np.arange(binned.size)
+        binned = np.interp(cells, cells[good], binned[good])
     despiked = ndimage.median_filter(binned, size=_odd(cfg.grade_despike_m / ds), mode="nearest")
     offset = float(np.median(despiked))
     smooth = trend_filter(despiked - offset, cfg.grade_penalty_m3 / ds**2) + offset

@@ -6,13 +6,14 @@ Spikes are found the same way for speed and for positions, vectorised over the w
    change faster than ``accel_limit_m_s2``, with the time step floored at ``step_s`` so that
    high-rate loggers that refresh a value in one row are judged per second; position: an implied
    speed above ``position_jump_factor * speed_ceiling_m_s`` plus ``position_noise_m``);
-2. two consecutive jumps no more than ``spike_max_s`` apart enclose a *spike run* when the
-   samples just outside the run agree with each other (and, for speed, the two jumps go opposite
-   ways): the run alone is removed, never its neighbours;
+2. two jumps no more than ``spike_max_s`` apart (with at most two further jumps between them)
+   enclose a *spike run* when the samples just outside the run agree with each other (and, for
+   speed, two consecutive jumps go opposite ways): the run alone is removed, never its neighbours;
 3. a run at the very start or end of the log, cut off by one jump, is removed when it is shorter
    than ``spike_max_s`` and the rest of the log is longer;
-4. a jump left over whose two neighbours agree with each other is a one-sample spike too (its
-   way back is no jump because a long time step follows);
+4. a jump left over is a one-sample spike when the sample just after it (or just before it)
+   strays from the line between its own neighbours by a jump while those neighbours agree (the
+   way back is no jump: a long time step, or a drop that hard braking alone could make);
 5. any other jump is a *step* (the signal moves and stays): it is not removed, because neither
    side can be shown wrong; for positions it is reported so the caller can break the track there.
    Fixes further apart in time than ``gap_break_s`` are never judged against each other.
@@ -44,6 +45,9 @@ IntArray = npt.NDArray[np.int64]
 SPIKE_PASSES: Final = 3
 """Passes of the spike search (a spike masked by another shows up on the next pass)."""
 
+SPIKE_MAX_INNER_JUMPS: Final = 2
+"""A spike run may contain this many further jumps (two bad fixes in a row, each off its own way)."""
+
 # consistent(a, b) -> bool array: do samples a and b (index arrays) agree with each other?
 Consistent = Callable[[IntArray, IntArray], BoolArray]
 # odd(a, k, b) -> bool array: does sample k stray from the line between a and b by a jump?
@@ -73,6 +77,31 @@ def impossible_speed(speed_m_s: npt.ArrayLike, cfg: CleanConfig) -> BoolArray:
         return (speed < 0) | (speed > cfg.speed_ceiling_m_s) | np.isinf(speed)
 
 
+def _enclosed_runs(
+    t_s: FloatArray, arrivals: IntArray, consistent: Consistent, opposite: BoolArray | None, max_s: float
+) -> tuple[IntArray, IntArray]:
+    """Runs ``start .. stop-1`` between jumps (up to :data:`SPIKE_MAX_INNER_JUMPS` apart) that
+    last at most ``max_s`` and whose outside neighbours agree; smallest runs first."""
+    starts, stops = [], []
+    taken = np.zeros(t_s.size + 1, dtype=bool)
+    for k in range(1, SPIKE_MAX_INNER_JUMPS + 2):  # a handful of run widths, each vectorised
+        if arrivals.size <= k:
+            break
+        start, stop = arrivals[:-k], arrivals[k:]
+        ok = (t_s[stop - 1] - t_s[start]) <= max_s
+        if opposite is not None and k == 1:
+            ok &= opposite[start] != opposite[stop]
+        ok &= ~taken[start] & ~taken[stop - 1]
+        ok[ok] &= consistent(start[ok] - 1, stop[ok])
+        marks = np.zeros(t_s.size + 2, dtype=np.int64)
+        np.add.at(marks, start[ok], 1)
+        np.add.at(marks, stop[ok], -1)
+        taken |= np.cumsum(marks[:-1]) > 0
+        starts.append(start[ok])
+        stops.append(stop[ok])
+    return np.concatenate(starts) if starts else arrivals[:0], np.concatenate(stops) if stops else arrivals[:0]
+
+
 def _runs_between_jumps(
     t_s: FloatArray, jump: BoolArray, consistent: Consistent, odd: Odd, opposite: BoolArray | None, max_s: float
 ) -> tuple[BoolArray, BoolArray]:
@@ -82,18 +111,21 @@ def _runs_between_jumps(
     arrivals = np.flatnonzero(jump)
     if arrivals.size == 0:
         return spike, np.zeros(n, dtype=bool)
-    start, stop = arrivals[:-1], arrivals[1:]  # run = start .. stop - 1
-    ok = (t_s[stop - 1] - t_s[start]) <= max_s
-    if opposite is not None:
-        ok &= opposite[start] != opposite[stop]
-    ok &= consistent(start - 1, stop)
+    start, stop = _enclosed_runs(t_s, arrivals, consistent, opposite, max_s)
     first_run_end = arrivals[0]  # samples 0 .. arrivals[0]-1 before the first jump
     last_run_start = arrivals[-1]
-    lead = (t_s[first_run_end - 1] - t_s[0] <= max_s) and (first_run_end < n - first_run_end)
-    trail = (t_s[n - 1] - t_s[last_run_start] <= max_s) and (n - last_run_start < last_run_start)
+    explained = np.zeros(n, dtype=bool)
+    explained[start] = True
+    explained[stop] = True
+    lead = (not explained[first_run_end]) and (t_s[first_run_end - 1] - t_s[0] <= max_s) and (
+        first_run_end < n - first_run_end
+    )
+    trail = (not explained[last_run_start]) and (t_s[n - 1] - t_s[last_run_start] <= max_s) and (
+        n - last_run_start < last_run_start
+    )
     marks = np.zeros(n + 1, dtype=np.int64)
-    np.add.at(marks, start[ok], 1)
-    np.add.at(marks, stop[ok], -1)
+    np.add.at(marks, start, 1)
+    np.add.at(marks, stop, -1)
     if lead:
         marks[0] += 1
         marks[first_run_end] -= 1
@@ -102,20 +134,25 @@ def _runs_between_jumps(
         marks[n] -= 1
     spike = np.cumsum(marks[:n]) > 0
     used = np.zeros(n, dtype=bool)
-    used[start[ok]] = True
-    used[stop[ok]] = True
+    used[start] = True
+    used[stop] = True
     if lead:
         used[first_run_end] = True
     if trail:
         used[last_run_start] = True
     step = jump & ~used & ~spike
-    # a lone jump whose two neighbours agree with each other while it strays from the line
-    # between them: a one-sample spike whose way back is no jump (a long time step after it)
-    lone = np.flatnonzero(step[:-1])
-    if lone.size:
-        lone = lone[consistent(lone - 1, lone + 1) & odd(lone - 1, lone, lone + 1)]
-    spike[lone] = True
-    step[lone] = False
+    # a lone jump: the sample after it (or before it) strays from the line between its two
+    # neighbours, which agree with each other. A one-sample spike whose other side is no jump
+    # (a long time step, or a change that braking alone could make).
+    arrive = np.flatnonzero(step)
+    a = arrive[(arrive + 1 < n)]
+    a = a[consistent(a - 1, a + 1) & odd(a - 1, a, a + 1)] if a.size else a
+    b = np.setdiff1d(arrive[arrive >= 2], a)
+    b = b[consistent(b - 2, b) & odd(b - 2, b - 1, b)] if b.size else b
+    spike[a] = True
+    spike[b - 1] = True
+    step[a] = False
+    step[b] = False
     return spike, step
 
 

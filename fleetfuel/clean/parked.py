@@ -1,14 +1,17 @@
 """Standstill and parked GNSS drift.
 
-A stationary receiver's fixes wander by metres (multipath, changing satellite geometry), so
-speeds worked out from positions never quite reach zero and distance creeps up while a truck
-stands in a yard. A sample is at *standstill* when
+A stationary receiver's fixes wander by metres (multipath, changing satellite geometry), and a
+receiver's own (Doppler) speed shows small non-zero values; so a truck standing in a yard seems
+to creep, its speed never quite reaches zero and distance grows. A grid sample is at
+*standstill* when
 
-* its speed was reported by the vehicle (CAN, OBD, the receiver's own Doppler speed) and is
-  below ``standstill_speed_m_s``; or
-* it has no reported speed and either its position-derived speed is below that, or it lies in a
-  window of ``parked_window_s`` (at least three samples) whose fixes all stay within
-  ``parked_radius_m`` (east and north extent), i.e. the drift of a parked receiver.
+* its speed (reported, or derived from positions) is below ``standstill_speed_m_s``; or
+* it lies in a *drift run*: a run of speeds below ``creep_speed_m_s`` (averaged over
+  ``creep_window_s``, as speeds worked out from wandering fixes jitter) lasting at least
+  ``parked_window_s``, over which the vehicle made good (straight-line distance between the
+  run's first and last fixes) less than ``drift_progress_share`` of the distance its speeds
+  claim. Creeping in a queue makes good what it claims; drift around a parked spot does not.
+  (A slow manoeuvre that ends where it began, in a yard, counts as standstill too.)
 
 At standstill the speed is set to 0 and the position is held at the first fix of the standstill
 run, so that neither distance nor position-derived speed accumulates drift.
@@ -16,84 +19,110 @@ run, so that neither distance nor position-derived speed accumulates drift.
 References
 ----------
 Kaplan, E. D. and Hegarty, C. J. (2017). Understanding GPS/GNSS: Principles and Applications,
-3rd ed., ch. 11 (multipath and position error while static), from memory.
+3rd ed., ch. 11 (position error of a static receiver; from memory).
 """
 
 from __future__ import annotations
-
-import math
-from typing import Final
 
 import numpy as np
 import numpy.typing as npt
 import pandas as pd
 
 from fleetfuel.clean.config import CleanConfig
-from fleetfuel.clean.geodesy import local_plane_m
+from fleetfuel.clean.geodesy import geodesic_distance_m
 
 FloatArray = npt.NDArray[np.float64]
 BoolArray = npt.NDArray[np.bool_]
 
-MIN_WINDOW_SAMPLES: Final = 3
-"""Fewest samples in the drift window: two fixes alone always agree with some radius."""
+
+def _runs(mask: BoolArray, segment: npt.NDArray[np.int64]) -> npt.NDArray[np.int64]:
+    """Run number (1, 2, ...) of each True sample, runs never crossing a break; 0 elsewhere."""
+    prev = np.r_[False, mask[:-1] & (segment[1:] == segment[:-1])]
+    return np.where(mask, np.cumsum(mask & ~prev), 0)
 
 
-def _rolling_extent(values: FloatArray, window: int) -> FloatArray:
-    roll = pd.Series(values).rolling(window, min_periods=window)
-    return (roll.max() - roll.min()).to_numpy()
+def window_mean(values: npt.ArrayLike, segment: npt.ArrayLike, half: int) -> FloatArray:
+    """Centred running mean over ``2 * half + 1`` samples, cut at the stretch's ends (NaN as 0)."""
+    v = np.nan_to_num(np.asarray(values, dtype=np.float64), nan=0.0)
+    seg = np.asarray(segment, dtype=np.int64)
+    n = v.size
+    if n == 0:
+        return v
+    idx = np.arange(n)
+    first = np.maximum.accumulate(np.where(np.r_[True, seg[1:] != seg[:-1]], idx, 0))
+    last = np.minimum.accumulate(np.where(np.r_[seg[1:] != seg[:-1], True], idx, n - 1)[::-1])[::-1]
+    lo = np.maximum(idx - half, first)
+    hi = np.minimum(idx + half, last)
+    cs = np.r_[0.0, np.cumsum(v)]
+    return (cs[hi + 1] - cs[lo]) / (hi - lo + 1)
 
 
-def drift_windows(
-    lat_deg: npt.ArrayLike, lon_deg: npt.ArrayLike, segment: npt.ArrayLike, step_s: float, cfg: CleanConfig
-) -> BoolArray:
-    """True for samples inside a window of fixes that stay within ``cfg.parked_radius_m``.
-
-    Parameters
-    ----------
-    lat_deg, lon_deg : array_like
-        Fixes on a uniform grid (NaN where absent; a window with a missing fix never counts). [deg]
-    segment : array_like of int
-        Stretch number of each sample (windows never span a break).
-    step_s : float
-        Grid step. [s]
-    cfg : CleanConfig
-        ``parked_window_s``, ``parked_radius_m``.
-    """
-    lat = np.asarray(lat_deg, dtype=np.float64)
-    n = lat.size
-    window = max(MIN_WINDOW_SAMPLES, math.ceil(cfg.parked_window_s / step_s))
-    if n < window:
-        return np.zeros(n, dtype=bool)
-    east, north = local_plane_m(lat, lon_deg)
-    seg = np.asarray(segment, dtype=np.float64)
-    with np.errstate(invalid="ignore"):
-        ending_here = (
-            (_rolling_extent(east, window) <= cfg.parked_radius_m)
-            & (_rolling_extent(north, window) <= cfg.parked_radius_m)
-            & (_rolling_extent(seg, window) == 0)
-        )
-    # a sample is inside an accepted window if one ends within the next window - 1 samples
-    covered = pd.Series(ending_here[::-1].astype(np.float64)).rolling(window, min_periods=1).max()
-    return covered.to_numpy()[::-1] > 0
-
-
-def standstill(
+def drift_runs(
     speed_m_s: npt.ArrayLike,
-    speed_reported: npt.ArrayLike,
     lat_deg: npt.ArrayLike,
     lon_deg: npt.ArrayLike,
     segment: npt.ArrayLike,
     step_s: float,
     cfg: CleanConfig,
 ) -> BoolArray:
-    """Standstill of each grid sample (see module notes).
+    """True for samples inside a drift run (see module notes).
 
     Parameters
     ----------
     speed_m_s : array_like
-        Speed, reported or derived from positions. [m/s]
-    speed_reported : array_like of bool
-        True where the speed came from the log, False where it was derived from positions.
+        Speed on a uniform grid (reported or derived). [m/s]
+    lat_deg, lon_deg : array_like
+        Fixes (NaN where absent; a run needs a fix near each end). [deg]
+    segment : array_like of int
+        Stretch number of each sample (runs never span a break).
+    step_s : float
+        Grid step. [s]
+    cfg : CleanConfig
+        ``creep_speed_m_s``, ``creep_window_s``, ``parked_window_s``, ``drift_progress_share``.
+    """
+    speed = np.asarray(speed_m_s, dtype=np.float64)
+    n = speed.size
+    if n == 0:
+        return np.zeros(0, dtype=bool)
+    seg = np.asarray(segment, dtype=np.int64)
+    mean_speed = window_mean(speed, seg, max(1, int(round(cfg.creep_window_s / (2 * step_s)))))
+    slow = (mean_speed < cfg.creep_speed_m_s) & np.isfinite(speed)
+    run = _runs(slow, seg)
+    if not run.any():
+        return np.zeros(n, dtype=bool)
+    frame = pd.DataFrame(
+        {"run": run, "lat": np.asarray(lat_deg, dtype=np.float64), "lon": np.asarray(lon_deg, dtype=np.float64),
+         "claimed": speed * step_s}
+    )[run > 0]
+    groups = frame.groupby("run", sort=True)
+    first = groups[["lat", "lon"]].first()
+    last = groups[["lat", "lon"]].last()
+    claimed = groups["claimed"].sum()
+    duration = groups.size() * step_s
+    made_good = geodesic_distance_m(first["lat"], first["lon"], last["lat"], last["lon"])
+    with np.errstate(invalid="ignore"):
+        parked = (duration.to_numpy() >= cfg.parked_window_s) & (
+            made_good < cfg.drift_progress_share * claimed.to_numpy()
+        )
+    is_parked_run = np.zeros(int(run.max()) + 1, dtype=bool)
+    is_parked_run[duration.index.to_numpy()] = parked
+    return is_parked_run[run] & (run > 0)
+
+
+def standstill(
+    speed_m_s: npt.ArrayLike,
+    lat_deg: npt.ArrayLike,
+    lon_deg: npt.ArrayLike,
+    segment: npt.ArrayLike,
+    step_s: float,
+    cfg: CleanConfig,
+) -> BoolArray:
+    """Standstill of each grid sample: slow, or inside a drift run (see module notes).
+
+    Parameters
+    ----------
+    speed_m_s : array_like
+        Speed, reported or derived from positions (NaN: unknown, never standstill). [m/s]
     lat_deg, lon_deg : array_like
         Fixes. [deg]
     segment : array_like of int
@@ -101,14 +130,12 @@ def standstill(
     step_s : float
         Grid step. [s]
     cfg : CleanConfig
-        ``standstill_speed_m_s``, ``parked_window_s``, ``parked_radius_m``.
+        ``standstill_speed_m_s`` and the drift-run settings.
     """
     speed = np.asarray(speed_m_s, dtype=np.float64)
-    reported = np.asarray(speed_reported, dtype=bool)
     with np.errstate(invalid="ignore"):
         slow = speed < cfg.standstill_speed_m_s
-    drift = drift_windows(lat_deg, lon_deg, segment, step_s, cfg)
-    return np.where(reported, slow, slow | drift)
+    return slow | drift_runs(speed, lat_deg, lon_deg, segment, step_s, cfg)
 
 
 def hold_positions(
@@ -120,9 +147,7 @@ def hold_positions(
     still = np.asarray(parked, dtype=bool)
     if not still.any():
         return lat, lon
-    seg = np.asarray(segment)
-    start = still & ~np.r_[False, still[:-1] & (seg[1:] == seg[:-1])]
-    run = np.cumsum(start)
+    run = _runs(still, np.asarray(segment, dtype=np.int64))
     frame = pd.DataFrame({"run": run[still], "lat": lat[still], "lon": lon[still]})
     firsts = frame.groupby("run", sort=False)[["lat", "lon"]].transform("first")
     held_lat = firsts["lat"].to_numpy()

@@ -231,7 +231,7 @@ def clean_vehicle(samples: pd.DataFrame, cfg: CleanConfig) -> VehicleClean:
     reported = grid[schema.SPEED_M_S].to_numpy(dtype=np.float64)
     derived = speed_from_positions(lat0, lon0, seg, h)
     speed = np.where(np.isfinite(reported), reported, derived)
-    parked = standstill(speed, np.isfinite(reported), lat0, lon0, seg, h, cfg) & np.isfinite(speed)
+    parked = standstill(speed, lat0, lon0, seg, h, cfg) & np.isfinite(speed)
     speed = np.where(parked, 0.0, speed)
     lat, lon = hold_positions(lat0, lon0, parked, seg)
     distance = cumulative_distance_m(speed, seg, h)

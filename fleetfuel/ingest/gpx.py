@@ -60,6 +60,8 @@ from typing import Final
 
 import numpy as np
 import pandas as pd
+import pyarrow as pa
+import pyarrow.compute as pc
 
 from fleetfuel import schema
 from fleetfuel.errors import InputDataError
@@ -131,6 +133,11 @@ def _count_flags(points: TrackPoints) -> list[str]:
     return [f"{name}:{count}" for name, count in counts if count]
 
 
+def _repeated_string(value: str, n: int) -> pd.api.extensions.ExtensionArray:
+    """``n`` copies of ``value`` as a pandas ``string`` array, built in Arrow (no Python list)."""
+    return pd.arrays.ArrowStringArray(pa.chunked_array([pc.fill_null(pa.nulls(n, pa.string()), value)]))
+
+
 def assemble_log(path: Path, cfg: IngestConfig, points: TrackPoints) -> LogFile:
     """Turn the track points of one file into a :class:`LogFile` (shared by both readers).
 
@@ -158,16 +165,17 @@ def assemble_log(path: Path, cfg: IngestConfig, points: TrackPoints) -> LogFile:
     keep = reason == _KEEP
     rows = np.flatnonzero(keep)
     samples = conform(
-        pd.DataFrame(
-            {
-                schema.TIME_UTC: pd.DatetimeIndex(points.time_utc[rows]).tz_localize("UTC"),
-                schema.SPEED_M_S: points.speed_m_s[rows],
-                schema.LAT_DEG: points.lat_deg[rows],
-                schema.LON_DEG: points.lon_deg[rows],
-                schema.ELEVATION_M: points.elevation_m[rows],
-                schema.SOURCE_ROW: rows.astype(np.int64),
-            }
-        ).assign(**{schema.VEHICLE_ID: cfg.vehicle_id_for(path), schema.SOURCE_FILE: str(path)})
+        {
+            schema.VEHICLE_ID: _repeated_string(cfg.vehicle_id_for(path), len(rows)),
+            schema.TIME_UTC: pd.DatetimeIndex(points.time_utc[rows]).tz_localize("UTC"),
+            schema.SPEED_M_S: points.speed_m_s[rows],
+            schema.LAT_DEG: points.lat_deg[rows],
+            schema.LON_DEG: points.lon_deg[rows],
+            schema.ELEVATION_M: points.elevation_m[rows],
+            schema.SOURCE_FILE: _repeated_string(str(path), len(rows)),
+            schema.SOURCE_ROW: rows.astype(np.int64),
+        },
+        len(rows),
     )
     dropped_rows = np.flatnonzero(~keep)
     names = np.array(_REASON_NAMES, dtype=object)[reason[dropped_rows]]

@@ -7,16 +7,18 @@ what a fleet calls a route; trips cut at delivery stops or breaks are legs of it
 1. **Places.** All journey end points (starts and ends) are clustered with scikit-learn's DBSCAN on
    the great-circle (haversine) distance, latitudes and longitudes in radians, ``eps`` =
    ``cfg.place_radius_m`` / mean Earth radius. Noise points become places of their own.
-2. **End-place pairs.** Each journey joins the group of its (start place, end place); with
-   ``cfg.direction_agnostic`` (default) the pair is unordered, so A->B and B->A are one route.
+2. **End-place pairs.** Each journey joins the group of its (start place, end place). By default
+   the pair is ordered and headings count in full: A->B and B->A, or a loop and its reverse,
+   climb in different places and are different routes. With ``cfg.direction_agnostic`` the pair
+   is unordered and headings count modulo 180 degrees, so they are one route.
 3. **Paths.** Within a group, journeys whose paths overlap are one route: the Jaccard overlap of
    the grid cells they drive through, each with its heading sector, is at least
    ``cfg.path_min_overlap`` (:mod:`fleetfuel.segment.paths`; single linkage, i.e. DBSCAN with
-   ``min_samples = 1``). Headings count only modulo 180 degrees with ``cfg.direction_agnostic``.
+   ``min_samples = 1``) and the shorter is at least ``cfg.path_min_length_ratio`` of the longer.
 4. **Names.** Routes are named ``R01``, ``R02``, ... by decreasing number of journeys, then
-   decreasing distance, then earliest first journey (deterministic; names already taken are skipped), and
-   described by the coordinates of their two end places (end A: where the route's earliest
-   journey starts).
+   decreasing distance, then earliest first journey (deterministic; names already taken are
+   skipped), and described by the coordinates of their two end places (end A: where the route's
+   earliest journey starts).
 
 References
 ----------
@@ -154,7 +156,8 @@ def discover_routes(
     codes = index[rows[key].astype(str)].to_numpy().astype(np.int64)
     order = np.argsort(codes, kind="stable")
     tokens = path_tokens(rows.iloc[order], codes[order], n, cfg)
-    cluster = overlap_clusters(tokens, lo * (place.max() + 1) + hi, cfg)
+    length = usable["distance_m"].to_numpy(np.float64)
+    cluster = overlap_clusters(tokens, lo * (place.max() + 1) + hi, length, cfg)
 
     info = pd.DataFrame(
         {

@@ -173,7 +173,11 @@ def label_rows(samples: pd.DataFrame, cfg: SegmentConfig) -> RowLabels:
     first_trip = np.flatnonzero(new_period)
     last_trip = np.r_[first_trip[1:] - 1, trip_start.size - 1]
     period_start_time = samples[schema.TIME_UTC].iloc[first_moving[first_trip]]
-    period_stamp = pd.DatetimeIndex(period_start_time).tz_convert("UTC").strftime(PERIOD_TIME_FORMAT)
+    stamps = pd.DatetimeIndex(period_start_time)
+    stamps = (
+        stamps.tz_localize("UTC") if stamps.tz is None else stamps.tz_convert("UTC")
+    )  # naive: read as UTC
+    period_stamp = stamps.strftime(PERIOD_TIME_FORMAT)
     vehicles = samples[schema.VEHICLE_ID].iloc[first_moving[first_trip]].astype(str).to_numpy()
     period_ids = [f"{v}/P{s}" for v, s in zip(vehicles, period_stamp, strict=True)]
     period_code = _spans_to_codes(trip_start[first_trip], trip_end[last_trip], n)

@@ -7,7 +7,9 @@ about the fleet's mean latitude :math:`\varphi_0`: :math:`x = R\cos\varphi_0\,\D
 (``cfg.path_cell_m`` square) and its heading sector (``cfg.path_heading_sectors`` equal sectors of
 360 degrees; of 180 degrees when ``cfg.direction_agnostic``, so a road driven either way gives the
 same token). Two journeys are neighbours when the Jaccard overlap of their token sets,
-:math:`|A \cap B| / |A \cup B|`, is at least ``cfg.path_min_overlap``. Routes are the connected
+:math:`|A \cap B| / |A \cup B|`, is at least ``cfg.path_min_overlap`` and the shorter is at least
+``cfg.path_min_length_ratio`` of the longer (a bus line crossing a delivery district is a subset
+of the round's cells, not the round). Routes are the connected
 components of that neighbourhood graph within each end-place pair: DBSCAN with ``min_samples = 1``
 on the Jaccard distance (Ester et al. 1996), computed with scipy's sparse graph routines so that
 memory grows with the number of overlapping pairs, not with the square of the journeys.
@@ -103,7 +105,9 @@ def path_tokens(rows: pd.DataFrame, codes: IntArray, n: int, cfg: SegmentConfig)
     return matrix
 
 
-def overlap_clusters(tokens: sparse.csr_matrix, groups: IntArray, cfg: SegmentConfig) -> IntArray:
+def overlap_clusters(
+    tokens: sparse.csr_matrix, groups: IntArray, length_m: FloatArray, cfg: SegmentConfig
+) -> IntArray:
     """Connected components of the Jaccard-overlap graph within each group (labels 0..K-1).
 
     Parameters
@@ -112,8 +116,11 @@ def overlap_clusters(tokens: sparse.csr_matrix, groups: IntArray, cfg: SegmentCo
         From :func:`path_tokens`.
     groups : ndarray of int
         Group of each journey (its end-place pair); journeys of different groups never join.
+    length_m : ndarray
+        Distance of each journey. [m] Neighbours also need ``shorter / longer >=
+        cfg.path_min_length_ratio`` (a short run inside a long duty's area is not that duty).
     cfg : SegmentConfig
-        ``path_min_overlap``.
+        ``path_min_overlap``, ``path_min_length_ratio``.
     """
     n = tokens.shape[0]
     sizes = np.asarray(tokens.sum(axis=1)).ravel().astype(np.float64)
@@ -128,7 +135,8 @@ def overlap_clusters(tokens: sparse.csr_matrix, groups: IntArray, cfg: SegmentCo
             inter = (sub[start : start + block] @ sub.T).tocoo()
             i, j = members[start + inter.row], members[inter.col]
             union = sizes[i] + sizes[j] - inter.data
-            near = inter.data >= cfg.path_min_overlap * union
+            short, long = np.minimum(length_m[i], length_m[j]), np.maximum(length_m[i], length_m[j])
+            near = (inter.data >= cfg.path_min_overlap * union) & (short >= cfg.path_min_length_ratio * long)
             rows_out.append(i[near])
             cols_out.append(j[near])
     i, j = np.concatenate(rows_out), np.concatenate(cols_out)

@@ -36,7 +36,7 @@ from fleetfuel.simulate import shift
 from fleetfuel.simulate.config import SimConfig
 from fleetfuel.simulate.fuelmap import fuel_model, max_torque_nm, motoring_torque_nm
 from fleetfuel.simulate.spec import VehicleSpec
-from fleetfuel.simulate.spec_parts import KW_W, RPM_RAD_S, Engine
+from fleetfuel.simulate.spec_parts import KW_W, RPM_RAD_S
 
 FloatArray = npt.NDArray[np.float64]
 
@@ -95,27 +95,34 @@ class GearGrid:
         Full-load torque at that speed. [N m]
     load : ndarray
         ``engine_torque_nm / full_load_nm``: above 1 the gear cannot carry the demand. [1]
+    wheel_rev_per_min : ndarray, shape (steps,)
+        Wheel speed. [rpm]
+    overall_ratios : ndarray, shape (gears,)
+        Gear times final-drive ratio. [1]
     """
 
     speed_norm: FloatArray
     engine_torque_nm: FloatArray
     full_load_nm: FloatArray
     load: FloatArray
+    wheel_rev_per_min: FloatArray
+    overall_ratios: FloatArray
 
-    def engine_speed_rpm(self, engine: Engine) -> FloatArray:
-        """Engine speed. [rpm]"""
-        return engine.idle_speed_rpm + self.speed_norm * (engine.rated_speed_rpm - engine.idle_speed_rpm)
+    def engine_speed_rpm(self) -> FloatArray:
+        """Engine speed in every gear, (steps, gears). [rpm]"""
+        return np.multiply.outer(self.wheel_rev_per_min, self.overall_ratios)
 
 
 def evaluate_gears(spec: VehicleSpec, speed_m_s: FloatArray, accel_m_s2: FloatArray, base_force_n: FloatArray,
                    inertia_extra_kg: FloatArray) -> GearGrid:
     r"""Engine speed, torque, full-load torque and load in every gear for a block of steps.
 
-    The per-step and per-gear factors are separated so that each (steps, gears) array costs
-    one or two passes: :math:`T_e = (p_i + q_i m_g) / R_g` with :math:`R_g = i_g i_f`,
-    :math:`p_i = F_i c_i + P_{aux} r / v_i`, :math:`q_i = a_i c_i`, and :math:`c_i = r / \eta`
-    (pulling) or :math:`r \eta` (overrun; the sign is taken from the road load, the prime mover's
-    own inertia term being small), :math:`n^*_{ig} = u_i R_g - b`.
+    Per-step and per-gear factors are separated, so each (steps, gears) array is one matrix
+    product of a (steps, 2) by a (2, gears) factor (one pass, written once):
+    :math:`T_e = p_i / R_g + q_i\, m_g / R_g` with :math:`R_g = i_g i_f`,
+    :math:`p_i = F_i c_i + P_{aux} r / v_i`, :math:`q_i = a_i c_i`, :math:`c_i = r / \eta` (pulling)
+    or :math:`r \eta` (overrun; the sign is taken from the road load, the prime mover's own inertia
+    term being small), and :math:`n^*_{ig} = u_i R_g - n_{idle} / \Delta n`.
 
     Parameters
     ----------
@@ -133,24 +140,26 @@ def evaluate_gears(spec: VehicleSpec, speed_m_s: FloatArray, accel_m_s2: FloatAr
     engine = spec.engine
     assert engine is not None
     radius_m, eta = spec.rolling_radius_m, spec.driveline.efficiency
-    inv_ratio = 1 / spec.overall_ratios
+    ratios = spec.overall_ratios
     idle, span = engine.idle_speed_rpm, engine.rated_speed_rpm - engine.idle_speed_rpm
     c = np.where(base_force_n >= 0, radius_m / eta, radius_m * eta)
     with np.errstate(divide="ignore"):
         aux = np.where(speed_m_s > 0, spec.auxiliary.power_kw * KW_W * radius_m / speed_m_s, 0.0)
-    p = base_force_n * c + aux
-    q = accel_m_s2 * c
-    torque = q[:, None] * inertia_extra_kg
-    torque += p[:, None]
-    torque *= inv_ratio
-    u = speed_m_s / (radius_m * RPM_RAD_S * span)
-    speed_norm = u[:, None] * spec.overall_ratios
-    speed_norm -= idle / span
+    per_step = np.empty((speed_m_s.size, 2))
+    np.multiply(base_force_n, c, out=per_step[:, 0])
+    per_step[:, 0] += aux
+    np.multiply(accel_m_s2, c, out=per_step[:, 1])
+    torque = per_step @ np.vstack((1 / ratios, inertia_extra_kg / ratios))
+    wheel_rpm = speed_m_s / (radius_m * RPM_RAD_S)
+    per_step[:, 0] = wheel_rpm
+    per_step[:, 1] = 1.0
+    speed_norm = per_step @ np.vstack((ratios / span, np.full(ratios.size, -idle / span)))
     rpm, nm = engine.full_load_arrays()
     full = np.interp(speed_norm, (rpm - idle) / span, nm, left=nm[0], right=0.0)
     with np.errstate(divide="ignore", invalid="ignore"):
         load = torque / full
-    return GearGrid(speed_norm=speed_norm, engine_torque_nm=torque, full_load_nm=full, load=load)
+    return GearGrid(speed_norm=speed_norm, engine_torque_nm=torque, full_load_nm=full, load=load,
+                    wheel_rev_per_min=wheel_rpm, overall_ratios=ratios)
 
 
 def fuel_rate_with_cut_g_s(spec: VehicleSpec, speed_rpm: FloatArray, torque_nm: FloatArray, cut_rpm: float) -> FloatArray:
@@ -226,7 +235,7 @@ def simulate_combustion(spec: VehicleSpec, time_s: FloatArray, speed_m_s: FloatA
         up, down = _thresholds(cfg, load_share)
         cost = None
         if cfg.shift_strategy == "best_efficiency":
-            cost = fuel_rate_with_cut_g_s(spec, grid.engine_speed_rpm(engine),
+            cost = fuel_rate_with_cut_g_s(spec, grid.engine_speed_rpm(),
                                           np.minimum(grid.engine_torque_nm, grid.full_load_nm), cut_rpm)
         gear = shift.choose_gears(cfg.shift_strategy, time_s[sl], mode, ~pulling, grid.speed_norm, grid.load, cost,
                                   up, down, margin=cfg.shift_landing_margin, reserve=cfg.upshift_torque_reserve,

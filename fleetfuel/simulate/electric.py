@@ -150,6 +150,68 @@ def state_of_charge(power_w: FloatArray, weight_s: FloatArray, *, usable_kwh: fl
                        usable_j, float(initial_soc), float(discharge_efficiency), float(charge_efficiency))
 
 
+_BLOCK_FIELDS = ("rpm", "torque", "delivered", "short", "force", "regen_force", "eff", "terminal_w")
+
+
+def _gears_of_block(spec: VehicleSpec, t: FloatArray, v: FloatArray, f0: FloatArray, force_g: FloatArray,
+                    rpm_g: FloatArray, limit_g: FloatArray, cfg: SimConfig, state: FloatArray) -> npt.NDArray[np.int8]:
+    """Reduction ratio per step: the one of least battery power (several ratios), else 1 while moving."""
+    motor = spec.motor
+    assert motor is not None
+    ratios, radius_m, eta = spec.overall_ratios, spec.rolling_radius_m, spec.driveline.efficiency
+    if ratios.size == 1:
+        return np.where(v > 0, 1, 0).astype(np.int8)
+    torque_g = np.where(force_g >= 0, force_g * radius_m / (ratios * eta), force_g * radius_m * eta / ratios)
+    power_g = torque_g * rpm_g * RPM_RAD_S
+    eff_g = motor_efficiency(motor, rpm_g, torque_g)
+    cost = np.where(power_g >= 0, power_g / eff_g, power_g * eff_g)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        load = np.where(limit_g > 0, np.abs(torque_g) / limit_g, np.inf)
+    mode = np.where(v > 0, shift.MODE_DRIVE, shift.MODE_NEUTRAL).astype(np.int8)
+    zeros = np.zeros(v.size)
+    return shift.choose_gears("best_efficiency", t, mode, f0 <= 0, rpm_g / motor.max_speed_rpm, load, cost, zeros,
+                              zeros, margin=0.0, reserve=1.0, efficiency_margin=cfg.best_efficiency_margin,
+                              nstar_max=1.0, dwell_s=cfg.min_gear_dwell_s, state=state)
+
+
+def _electric_block(spec: VehicleSpec, t: FloatArray, v: FloatArray, a: FloatArray, f0: FloatArray,
+                    adhesion_n: FloatArray, inertia_extra: FloatArray, cfg: SimConfig,
+                    state: FloatArray) -> tuple[npt.NDArray[np.int8], dict[str, FloatArray]]:
+    """Gear and operating point of one block of steps, before the battery's state of charge."""
+    motor, battery = spec.motor, spec.battery
+    assert motor is not None and battery is not None
+    ratios, radius_m, eta = spec.overall_ratios, spec.rolling_radius_m, spec.driveline.efficiency
+    aux_w = spec.auxiliary.power_kw * KW_W
+    force_g = f0[:, None] + a[:, None] * inertia_extra[None, :]
+    rpm_g = np.multiply.outer(v / (radius_m * RPM_RAD_S), ratios)
+    limit_g = motor_torque_limit_nm(motor, rpm_g)
+    gear = _gears_of_block(spec, t, v, f0, force_g, rpm_g, limit_g, cfg, state)
+    rows = np.arange(v.size)
+    k = np.maximum(gear.astype(np.intp) - 1, 0)
+    ratio, force, rpm, limit = ratios[k], force_g[rows, k], rpm_g[rows, k], limit_g[rows, k]
+    moving = v > 0
+    # traction, capped by the motor and by adhesion
+    pulling = moving & (force > 0)
+    delivered = np.where(pulling, np.minimum(force, np.minimum(limit * ratio * eta / radius_m, adhesion_n)), force)
+    # regeneration: a share of the braking demand, within the motor's and adhesion's limits
+    braking = moving & (force < 0)
+    regen_cap = np.minimum(limit * ratio / (eta * radius_m), adhesion_n)
+    regen_force = np.where(braking & (v >= cfg.regen_min_speed_m_s),
+                           np.maximum(force * battery.regen_share, -regen_cap), 0.0)
+    torque = np.where(pulling, delivered * radius_m / (ratio * eta), regen_force * radius_m * eta / ratio)
+    eff = motor_efficiency(motor, rpm, torque)
+    mech_w = torque * (rpm * RPM_RAD_S)
+    elec_w = np.where(mech_w >= 0, mech_w / eff, mech_w * eff)
+    # charge-power limit at the terminals: the regenerated power net of auxiliaries
+    floor_w = -battery.max_charge_power_kw * KW_W - aux_w
+    cut = elec_w < floor_w
+    if cut.any():
+        scale = np.where(cut, floor_w / np.where(cut, elec_w, 1.0), 1.0)
+        elec_w, torque, regen_force = elec_w * scale, torque * scale, regen_force * scale
+    return gear, {"rpm": rpm, "torque": torque, "delivered": delivered, "short": np.where(pulling, force - delivered, 0.0),
+                  "force": force, "regen_force": regen_force, "eff": eff, "terminal_w": elec_w + aux_w}
+
+
 def simulate_electric(spec: VehicleSpec, time_s: FloatArray, speed_m_s: FloatArray, accel_m_s2: FloatArray,
                       weight_s: FloatArray, base_force_n: FloatArray, adhesion_n: FloatArray, cfg: SimConfig,
                       payload_kg: float | None = None) -> PowertrainSteps:
@@ -158,71 +220,34 @@ def simulate_electric(spec: VehicleSpec, time_s: FloatArray, speed_m_s: FloatArr
     Parameters are those of :func:`fleetfuel.simulate.combustion.simulate_combustion`, plus
     ``weight_s`` (time each step stands for [s]) for the state of charge.
     """
-    motor, battery = spec.motor, spec.battery
-    assert motor is not None and battery is not None
+    battery = spec.battery
+    assert spec.motor is not None and battery is not None
     steps = speed_m_s.size
-    ratios = spec.overall_ratios
-    radius_m, eta = spec.rolling_radius_m, spec.driveline.efficiency
-    aux_w = spec.auxiliary.power_kw * KW_W
     inertia_extra = spec.equivalent_mass_kg(payload_kg) - (
         spec.test_mass_kg(payload_kg) + spec.body.rotating_mass_share * spec.body.curb_mass_kg)
-    force_g = base_force_n[:, None] + accel_m_s2[:, None] * inertia_extra[None, :]
-    rpm_g = (speed_m_s / radius_m)[:, None] * ratios[None, :] / RPM_RAD_S
-    limit_g = motor_torque_limit_nm(motor, rpm_g)
-    if ratios.size == 1:
-        gear = np.where(speed_m_s > 0, 1, 0).astype(np.int8)
-    else:
-        torque_g = np.where(force_g >= 0, force_g * radius_m / (ratios * eta), force_g * radius_m * eta / ratios)
-        power_g = torque_g * rpm_g * RPM_RAD_S
-        eff_g = motor_efficiency(motor, rpm_g, torque_g)
-        cost = np.where(power_g >= 0, power_g / eff_g, power_g * eff_g)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            load = np.where(limit_g > 0, np.abs(torque_g) / limit_g, np.inf)
-        mode = np.where(speed_m_s > 0, shift.MODE_DRIVE, shift.MODE_NEUTRAL).astype(np.int8)
-        zeros = np.zeros(steps)
-        gear = shift.choose_gears("best_efficiency", time_s, mode, base_force_n <= 0, rpm_g / motor.max_speed_rpm,
-                                  load, cost, zeros, zeros, margin=0.0, reserve=1.0,
-                                  efficiency_margin=cfg.best_efficiency_margin, nstar_max=1.0,
-                                  dwell_s=cfg.min_gear_dwell_s, state=shift.initial_state())
-    rows = np.arange(steps)
-    k = np.maximum(gear.astype(np.intp) - 1, 0)
-    ratio, force, rpm, limit = ratios[k], force_g[rows, k], rpm_g[rows, k], limit_g[rows, k]
-    omega = rpm * RPM_RAD_S
-    moving = speed_m_s > 0
-    # traction
-    pulling = moving & (force > 0)
-    capacity = np.minimum(limit * ratio * eta / radius_m, adhesion_n)
-    delivered = np.where(pulling, np.minimum(force, capacity), force)
-    short = np.where(pulling, force - delivered, 0.0)
-    torque = np.where(pulling, delivered * radius_m / (ratio * eta), 0.0)
-    # regeneration (a share of the braking demand, within the motor's and adhesion's limits)
-    braking = moving & (force < 0)
-    can_regen = braking & (speed_m_s >= cfg.regen_min_speed_m_s)
-    regen_force = np.where(can_regen, np.maximum(force * battery.regen_share, -np.minimum(limit * ratio / (eta * radius_m), adhesion_n)), 0.0)
-    torque = np.where(braking, regen_force * radius_m * eta / ratio, torque)
-    eff = motor_efficiency(motor, rpm, torque)
-    mech_w = torque * omega
-    elec_w = np.where(mech_w >= 0, mech_w / eff, mech_w * eff)
-    # charge-power limit at the terminals: the regenerated power net of auxiliaries
-    floor_w = -battery.max_charge_power_kw * KW_W - aux_w
-    cut = elec_w < floor_w
-    scale = np.where(cut, floor_w / np.where(cut, elec_w, 1.0), 1.0)
-    elec_w = elec_w * scale
-    torque = torque * scale
-    regen_force = regen_force * scale
-    terminal_w = elec_w + aux_w
+    out = {name: np.empty(steps) for name in _BLOCK_FIELDS}
+    gear = np.zeros(steps, dtype=np.int8)
+    state = shift.initial_state()
+    for start in range(0, steps, cfg.chunk_steps):
+        sl = slice(start, min(start + cfg.chunk_steps, steps))
+        gear[sl], block = _electric_block(spec, time_s[sl], speed_m_s[sl], accel_m_s2[sl], base_force_n[sl],
+                                          adhesion_n[sl], inertia_extra, cfg, state)
+        for name in _BLOCK_FIELDS:
+            out[name][sl] = block[name]
     soc0 = battery.initial_soc if cfg.initial_soc is None else cfg.initial_soc
-    soc, accepted_w = state_of_charge(terminal_w, weight_s, usable_kwh=battery.usable_kwh, initial_soc=soc0,
+    soc, accepted_w = state_of_charge(out["terminal_w"], weight_s, usable_kwh=battery.usable_kwh, initial_soc=soc0,
                                       discharge_efficiency=battery.discharge_efficiency,
                                       charge_efficiency=battery.charge_efficiency)
     # a full battery refuses regeneration: that energy goes to the friction brakes too
-    refused = np.where(braking, np.maximum(accepted_w - terminal_w, 0.0), 0.0)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        refused_force = np.where(refused > 0, refused / (eff * eta * speed_m_s), 0.0)
-    regen_force = np.minimum(regen_force + refused_force, 0.0)
+    force, regen_force = out["force"], out["regen_force"]
+    braking = (speed_m_s > 0) & (force < 0)
+    refused = np.where(braking, np.maximum(accepted_w - out["terminal_w"], 0.0), 0.0)
+    if refused.any():
+        with np.errstate(divide="ignore", invalid="ignore"):
+            refused_force = np.where(refused > 0, refused / (out["eff"] * spec.driveline.efficiency * speed_m_s), 0.0)
+        regen_force = np.minimum(regen_force + refused_force, 0.0)
     brake = np.where(braking, regen_force - force, 0.0)
-    regen_w = np.maximum(-(accepted_w - aux_w), 0.0)
-    regen_w = np.where(braking, regen_w, 0.0)
-    return PowertrainSteps(gear=gear, shaft_speed_rpm=rpm, shaft_torque_nm=torque, wheel_force_n=delivered,
-                           shortfall_n=short, friction_brake_n=brake, fuel_rate_g_s=np.zeros(steps),
-                           battery_power_w=accepted_w, soc=soc, regen_power_w=regen_w)
+    regen_w = np.where(braking, np.maximum(spec.auxiliary.power_kw * KW_W - accepted_w, 0.0), 0.0)
+    return PowertrainSteps(gear=gear, shaft_speed_rpm=out["rpm"], shaft_torque_nm=out["torque"],
+                           wheel_force_n=out["delivered"], shortfall_n=out["short"], friction_brake_n=brake,
+                           fuel_rate_g_s=np.zeros(steps), battery_power_w=accepted_w, soc=soc, regen_power_w=regen_w)

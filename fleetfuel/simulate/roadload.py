@@ -72,7 +72,7 @@ def trace_kinematics(time_s: npt.ArrayLike, speed_m_s: npt.ArrayLike) -> tuple[F
     step = np.diff(t)
     if not np.all(step > 0):
         row = int(np.argmax(~(step > 0))) + 1
-        raise InputDataError(f"time_s: expected strictly increasing times, found {t[row]!r} after {t[row - 1]!r} at row {row}")
+        raise InputDataError(f"time_s: expected strictly increasing times, found {float(t[row])!r} after {float(t[row - 1])!r} at row {row}")
     accel = np.empty_like(v)
     weight = np.empty_like(t)
     accel[1:-1] = (v[2:] - v[:-2]) / (t[2:] - t[:-2])
@@ -175,7 +175,7 @@ def traction_limit_n(mass_kg: float, grade: npt.ArrayLike, driven_axle_load_shar
     g = np.asarray(grade, dtype=np.float64)
     limit_n = adhesion_coefficient * driven_axle_load_share * mass_kg * STANDARD_GRAVITY_M_S2
     cos = _cos_theta(g)
-    return np.full(g.shape, limit_n) if np.isscalar(cos) else cos * limit_n
+    return np.full(g.shape, limit_n) if cos is None else cos * limit_n
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -201,10 +201,10 @@ class RoadLoad:
     total_n: FloatArray
 
 
-def _cos_theta(grade: FloatArray) -> FloatArray | float:
-    r""":math:`\cos\theta = 1 / \sqrt{1 + \text{grade}^2}`; the float 1.0 on a flat trace."""
+def _cos_theta(grade: FloatArray) -> FloatArray | None:
+    r""":math:`\cos\theta = 1 / \sqrt{1 + \text{grade}^2}`; None on a flat trace (all ones)."""
     if not grade.any():
-        return 1.0
+        return None
     cos = grade * grade
     cos += 1
     np.sqrt(cos, out=cos)
@@ -242,9 +242,9 @@ def road_load(speed_m_s: npt.ArrayLike, accel_m_s2: npt.ArrayLike, grade: npt.Ar
     g = np.broadcast_to(np.asarray(grade, dtype=np.float64), v.shape)
     weight_n = mass_kg * STANDARD_GRAVITY_M_S2
     cos = _cos_theta(g)
-    rolling = np.full(v.shape, rolling_coefficient * weight_n) if np.isscalar(cos) else cos * (rolling_coefficient * weight_n)
+    rolling = np.full(v.shape, rolling_coefficient * weight_n) if cos is None else cos * (rolling_coefficient * weight_n)
     rolling[v <= 0] = 0.0
-    grade_n = np.zeros(v.shape) if np.isscalar(cos) else g * cos * weight_n
+    grade_n = np.zeros(v.shape) if cos is None else g * cos * weight_n
     aero = v * v
     aero *= np.asarray(air_density_kg_m3, dtype=np.float64) * (drag_area_m2 / 2)
     inertia = a * (mass_kg + rotating_mass_kg)

@@ -10,7 +10,8 @@ Rules (both strategies)
 -----------------------
 - Standstill, or coasting with the engine below idle in every usable gear: clutch open, neutral
   (gear 0). Launch (traction below the lowest gear's idle road speed): gear 1, clutch slipping.
-- From neutral while rolling, the strategy engages its preferred gear at once.
+- From neutral while rolling, the strategy engages its preferred gear at once, except while coasting
+  or braking with no gear inside the window: then the clutch stays open until the wheels pull.
 - A gear is left before ``min_gear_dwell_s`` only when it is physically impossible: engine above
   its maximum speed, or below idle while pulling. While braking or coasting no downshift is made
   (fuel is cut on overrun; below idle the clutch opens).
@@ -71,14 +72,15 @@ def _nearest_usable(nstar, i, nmax):  # pragma: no cover - compiled
 
 
 @njit(cache=True)
-def _engage_window(nstar, load, i, down, margin, reserve, nmax):  # pragma: no cover - compiled
-    """Gear to engage from neutral: highest inside the window with reserve, else the strongest usable."""
+def _engage_window(nstar, load, i, down, margin, reserve, nmax, window_only=False):  # pragma: no cover
+    """Gear to engage from neutral: highest inside the window with reserve, else the strongest usable
+    (or -1 with ``window_only``)."""
     gears = nstar.shape[1]
     best = -1
     for h in range(gears):
         if nstar[i, h] >= down + margin and nstar[i, h] <= nmax and load[i, h] <= reserve:
             best = h
-    if best < 0:
+    if best < 0 and not window_only:
         best = _strongest(nstar, load, i, _nearest_usable(nstar, i, nmax), nmax)
     return best
 
@@ -132,6 +134,28 @@ def _best_gear(cost, nstar, load, i, floor, nmax):  # pragma: no cover - compile
 
 
 @njit(cache=True)
+def _engage(strategy, nstar, load, cost, i, braking, down, margin, reserve, nmax):  # pragma: no cover
+    """Gear index to engage from neutral at step ``i``, or -1 to stay in neutral."""
+    if braking and _engage_window(nstar, load, i, down, margin, 1.0, nmax, True) < 0:
+        return -1  # coasting or braking slowly: the clutch stays open until a gear fits or the wheels pull
+    if strategy == 0:
+        return _engage_window(nstar, load, i, down, margin, reserve, nmax)
+    return _best_gear(cost, nstar, load, i, down + margin, nmax)
+
+
+@njit(cache=True)
+def _target(strategy, nstar, load, cost, i, k, up, down, margin, reserve, eff_margin, nmax,
+            forced_up, under):  # pragma: no cover - compiled
+    """Gear index the strategy wants at step ``i`` when it may (or must) leave gear index ``k``."""
+    if strategy == 0:
+        return _window_target(nstar, load, i, k, up, down, margin, reserve, nmax, forced_up, under)
+    best = _best_gear(cost, nstar, load, i, down + margin, nmax)
+    if forced_up or under or load[i, k] > 1.0 or cost[i, k] > cost[i, best] * (1.0 + eff_margin):
+        return best
+    return k
+
+
+@njit(cache=True)
 def _choose_gears(strategy, time_s, mode, braking, nstar, load, cost, up, down,
                   margin, reserve, eff_margin, nmax, dwell_s, state):  # pragma: no cover - compiled
     steps = time_s.shape[0]
@@ -144,39 +168,26 @@ def _choose_gears(strategy, time_s, mode, braking, nstar, load, cost, up, down,
             continue
         if mode[i] == MODE_LAUNCH:
             if cur != 1:
-                cur = 1
-                t_last = time_s[i]
+                cur, t_last = 1, time_s[i]
             gear[i] = 1
             continue
         if cur == 0:
-            if strategy == 0:
-                k = _engage_window(nstar, load, i, down[i], margin, reserve, nmax)
-            else:
-                k = _best_gear(cost, nstar, load, i, down[i] + margin, nmax)
-            cur = k + 1
-            t_last = time_s[i]
-            gear[i] = cur
+            k = _engage(strategy, nstar, load, cost, i, braking[i], down[i], margin, reserve, nmax)
+            if k >= 0:
+                cur, t_last = k + 1, time_s[i]
+                gear[i] = cur
             continue
         k = cur - 1
-        n = nstar[i, k]
-        forced_up = n > nmax
-        under = n < 0.0
+        forced_up = nstar[i, k] > nmax
+        under = nstar[i, k] < 0.0
         if under and braking[i]:
             cur = 0
             continue
-        can_shift = time_s[i] - t_last >= dwell_s
-        target = k
-        if forced_up or under or (can_shift and not braking[i]):
-            if strategy == 0:
-                target = _window_target(nstar, load, i, k, up[i], down[i], margin, reserve, nmax,
-                                        forced_up, under)
-            else:
-                best = _best_gear(cost, nstar, load, i, down[i] + margin, nmax)
-                if forced_up or under or load[i, k] > 1.0 or cost[i, k] > cost[i, best] * (1.0 + eff_margin):
-                    target = best
-        if target != k:
-            cur = target + 1
-            t_last = time_s[i]
+        if forced_up or under or (time_s[i] - t_last >= dwell_s and not braking[i]):
+            target = _target(strategy, nstar, load, cost, i, k, up[i], down[i], margin, reserve, eff_margin,
+                             nmax, forced_up, under)
+            if target != k:
+                cur, t_last = target + 1, time_s[i]
         gear[i] = cur
     state[0] = cur
     state[1] = t_last

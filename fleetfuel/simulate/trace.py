@@ -43,7 +43,7 @@ SHORTFALL_TOL_N = 1e-6
 
 @dataclass(frozen=True, slots=True, kw_only=True)
 class SimTotals:
-    """Totals over the trace (what ``fleetfuel simulate --json`` prints).
+    r"""Totals over the trace (what ``fleetfuel simulate --json`` prints).
 
     Attributes
     ----------
@@ -59,6 +59,8 @@ class SimTotals:
         Net energy out of the battery terminals (regeneration netted). [kWh]
     grid_kwh : float
         Energy from the grid to restore the battery, charger and charging losses included. [kWh]
+    battery_throughput_kwh : float
+        Energy through the battery terminals both ways, :math:`\sum |P| \Delta t` (ageing). [kWh]
     energy_kwh_per_km : float
         ``battery_kwh`` (electric) per km. [kWh/km] (None for combustion)
     co2_kg : float
@@ -90,6 +92,7 @@ class SimTotals:
     fuel_kg_per_100km: float | None
     battery_kwh: float
     grid_kwh: float
+    battery_throughput_kwh: float
     energy_kwh_per_km: float | None
     co2_kg: float
     shortfall_s: float
@@ -159,10 +162,10 @@ def _as_trace(time_s: npt.ArrayLike, speed_m_s: npt.ArrayLike, grade: npt.ArrayL
     for name, arr in (("time_s", t), ("speed_m_s", v), ("grade", g), ("elevation_m", z)):
         if arr is not None and not np.all(np.isfinite(arr)):
             row = int(np.argmax(~np.isfinite(arr)))
-            raise InputDataError(f"trace {name}: expected finite numbers, found {arr[row]!r} at row {row}")
+            raise InputDataError(f"trace {name}: expected finite numbers, found {float(arr[row])!r} at row {row}")
     if np.any(v < 0):
         row = int(np.argmax(v < 0))
-        raise InputDataError(f"trace speed_m_s: expected >= 0, found {v[row]!r} at row {row}")
+        raise InputDataError(f"trace speed_m_s: expected >= 0, found {float(v[row])!r} at row {row}")
     return t, v, g, z
 
 
@@ -176,12 +179,15 @@ def reach_speed_m_s(spec: VehicleSpec) -> float:
 
 def _run_deficit(short: npt.NDArray[np.bool_], dv: FloatArray) -> FloatArray:
     """Cumulative sum of ``dv`` within runs of consecutive ``short`` steps, zero elsewhere."""
-    dv = np.where(short, dv, 0.0)
-    total = np.cumsum(dv)
-    starts = short & ~np.concatenate(([False], short[:-1]))
-    index = np.maximum.accumulate(np.where(starts, np.arange(short.size), 0))
-    before = total[index] - dv[index]
-    return np.where(short, total - before, 0.0)
+    out = np.zeros(short.size)
+    idx = np.flatnonzero(short)
+    if idx.size:
+        step = dv[idx]
+        total = np.cumsum(step)
+        starts = np.concatenate(([True], np.diff(idx) != 1))
+        first = np.maximum.accumulate(np.where(starts, np.arange(idx.size), 0))
+        out[idx] = total - (total[first] - step[first])
+    return out
 
 
 def simulate_trace(time_s: npt.ArrayLike, speed_m_s: npt.ArrayLike, grade: npt.ArrayLike | None,
@@ -294,6 +300,7 @@ def _totals(spec: VehicleSpec, t: FloatArray, v_trace: FloatArray, v: FloatArray
         fuel_kg_per_100km=fuel_kg * per_100 if fuel is not None else None,
         battery_kwh=battery_kwh,
         grid_kwh=grid_kwh,
+        battery_throughput_kwh=float(np.dot(np.abs(steps.battery_power_w), w) / JOULES_PER_KWH),
         energy_kwh_per_km=battery_kwh / distance_km if spec.battery is not None and distance_km > 0 else None,
         co2_kg=fuel_kg * fuel.co2_kg_per_kg if fuel is not None else 0.0,
         shortfall_s=float(np.sum(w[short])),

@@ -43,14 +43,35 @@ Fleets:
 Exports (through ingest profiles, so every layout written can be read back):
 
 - ``synth.write_export(frame, profile, path)``: CSV (optionally gzip) laid out by a
-  :class:`fleetfuel.ingest.profiles.Profile`; ``synth.write_parquet(frame, profile, path)``;
-  ``synth.write_gpx(frame, path)`` (GPX 1.1, speed in an extension).
+  :class:`fleetfuel.ingest.profiles.Profile` (any bundled layout the frame can fill);
+  ``synth.write_parquet(frame, profile_or_None, path)``; ``synth.write_gpx(frame, path)``
+  (GPX 1.1, speed in an extension). Demo layouts: ``depot_tracker_csv``, ``fleet_portal_csv``,
+  ``event_logger_csv``, ``bus_parquet`` (top-level ``ingest/``).
+
+Recipes for tests with known truth
+----------------------------------
+::
+
+    route = synth.line_route(10_000, limit_kmh=80, hill=synth.Hill(start_m=2000, climb_m=3000, height_m=150),
+                             stops=[(6000, 600, False)], lights_every_m=1500)
+    d = synth.drive(route, "rigid_18t", seed=1, logger=synth.Logger(rate_hz=1.0, fuel_counter_step_l=0.1))
+    frame, injected = synth.add_defects(d.frame, synth.DefectSpec(
+        altitude_sigma_m=4, altitude_step_m=1,        # realistic GNSS altitude noise
+        speed_spike_share=0.002, gaps_per_day=20,      # spikes and gaps, reported by row
+        drift_min_stop_s=120), seed=1)                 # parked drift at the 10-minute stop
+    truth = d.truth.iloc[injected.source_index]       # truth row for row with the damaged frame
+    slow = synth.drive(route, "rigid_18t", seed=1, logger=synth.Logger(rate_hz=1 / 30, jitter_s=3))
+
+``synth.DriveConfig(wobble=0, speed_factor_sigma=0, dwell_sigma=0)`` removes driver randomness
+(speeds at the limit, dwell times as planned). An engine-off stop longer than
+``DriveConfig.logger_sleep_after_s`` (300 s) ends logging until the engine starts again.
 """
 
 from __future__ import annotations
 
 from fleetfuel.synth.defects import DefectSpec, InjectedDefects, add_defects
 from fleetfuel.synth.drive import MOVING, TRUTH_COLUMNS, DriveTruth, Logger, drive
+from fleetfuel.synth.export import write_export, write_gpx, write_parquet
 from fleetfuel.synth.fixtures import Hill, line_route
 from fleetfuel.synth.fleet import ROSTER, SCENARIO_TIMEZONE, SyntheticFleet, VehiclePlan, fleet, roster
 from fleetfuel.synth.network import COMPANY, quillmere_network
@@ -64,4 +85,5 @@ __all__ = [
     "DefectSpec", "DriveConfig", "DriveTruth", "Hill", "InjectedDefects", "Logger", "PlannedStop", "Route",
     "SyntheticFleet", "TruthFuelModel", "VehicleClass", "VehiclePlan",
     "add_defects", "drive", "fleet", "line_route", "quillmere_network", "roster",
+    "write_export", "write_gpx", "write_parquet",
 ]

@@ -20,6 +20,7 @@ from typing import Final
 import numpy as np
 import numpy.typing as npt
 import pandas as pd
+import pyarrow as pa
 
 from fleetfuel import schema
 from fleetfuel.errors import ConfigError
@@ -280,7 +281,8 @@ def drive(
     stamps = pd.to_datetime(start.value + np.rint(times * NS_PER_S).astype(np.int64), unit="ns", utc=True)
 
     columns: dict[str, object] = {
-        schema.VEHICLE_ID: pd.array([vehicle_id] * len(times), dtype="string"),
+        schema.VEHICLE_ID: pd.array(pa.array([vehicle_id]).take(pa.array(np.zeros(len(times), dtype=np.int64))),
+                                    dtype="string"),
         schema.TIME_UTC: stamps,
         schema.SPEED_M_S: speed,
         schema.LAT_DEG: lat,

@@ -7,6 +7,7 @@ Dwell times and stop counts are scenario data (typical of the trade; common prac
 
 from __future__ import annotations
 
+from functools import lru_cache
 from typing import Final
 
 import numpy as np
@@ -32,10 +33,12 @@ TOWN_EDGE_M: Final = 1800.0
 """Deliveries in a town lie within this distance of the road's town end. [m]"""
 
 
+@lru_cache(maxsize=1)
 def _depot_to_centre() -> Road:
     return streets.street_path("Depot to Quillmere centre", [TOWNS["Quillmere depot"], TOWNS["Quillmere"]], [True])
 
 
+@lru_cache(maxsize=1)
 def _centre_to_depot() -> Road:
     return streets.street_path("Quillmere centre to depot", [TOWNS["Quillmere"], TOWNS["Quillmere depot"]], [False])
 
@@ -70,19 +73,22 @@ def regional(rng: np.random.Generator, variant: str, drops_per_town: int, dwell_
         stops.append(PlannedStop(leg=3, at_m=400.0, kind=rt.BREAK, dwell_s=2700.0, engine_off=True))
         village = legs[2].length_m * rng.uniform(0.3, 0.4)
         stops.append(PlannedStop(leg=2, at_m=float(village), kind=rt.DELIVERY, dwell_s=dwell_s, engine_off=True))
-    return assemble_route(f"Regional {variant.replace('_', ' ')}", "regional", legs, stops,
-                          origin=ORIGIN, terrain=TOWN_TERRAIN)
+    name = f"Regional {variant.replace('_', ' ')}"
+    return assemble_route(name, "regional", legs, stops, origin=ORIGIN, terrain=TOWN_TERRAIN, cache_key=name)
 
 
 def trunk(rng: np.random.Generator, unload_s: float = 3600.0) -> Route:
-    """Motorway trunk: depot -> Dunhallow Port (unload with the engine off) -> depot."""
+    """Motorway trunk: depot -> Dunhallow Port (unload with the engine off) -> depot.
+
+    ``rng`` is unused: the route is fixed (the drive varies the unloading time)."""
+    del rng
     net = quillmere_network()
     legs = [net.road("depot_j"), net.road("motorway"), net.road("port"),
             net.road("port", reverse=True), net.road("motorway", reverse=True), net.road("depot_j", reverse=True)]
-    dwell = unload_s * rng.uniform(0.8, 1.25)
-    stops = [PlannedStop(leg=2, at_m=legs[2].length_m, kind=rt.DELIVERY, dwell_s=float(dwell), engine_off=True),
+    stops = [PlannedStop(leg=2, at_m=legs[2].length_m, kind=rt.DELIVERY, dwell_s=unload_s, engine_off=True),
              PlannedStop(leg=0, at_m=0.0, kind=rt.DEPOT, dwell_s=600.0)]
-    return assemble_route("Trunk Quillmere - Dunhallow Port", "trunk", legs, stops, origin=ORIGIN, terrain=TOWN_TERRAIN)
+    name = "Trunk Quillmere - Dunhallow Port"
+    return assemble_route(name, "trunk", legs, stops, origin=ORIGIN, terrain=TOWN_TERRAIN, cache_key=name)
 
 
 def bus(rng: np.random.Generator, n_round_trips: int) -> Route:
@@ -94,7 +100,7 @@ def bus(rng: np.random.Generator, n_round_trips: int) -> Route:
 def pool_car(rng: np.random.Generator, variant: str) -> Route:
     """A pool-car day: a visit to Eskerby, Brindlecross or Corvey Heights, or errands in town."""
     net = quillmere_network()
-    meeting = PlannedStop(leg=1, at_m=0.0, kind=rt.BREAK, dwell_s=float(rng.uniform(3600.0, 7200.0)), engine_off=True)
+    meeting_s = float(rng.uniform(3600.0, 7200.0))
     if variant == "town":
         points = [TOWNS["Quillmere depot"]]
         for _ in range(3):
@@ -110,6 +116,6 @@ def pool_car(rng: np.random.Generator, variant: str) -> Route:
     key, reverse = {"eskerby": ("q_esk", False), "brindlecross": ("b_q", True), "corvey": ("q_ch", False)}[variant]
     out = net.road(key, reverse=reverse)
     legs = [_depot_to_centre(), out, out.reversed(), _centre_to_depot()]
-    meeting = PlannedStop(leg=2, at_m=0.0, kind=rt.BREAK, dwell_s=meeting.dwell_s, engine_off=True)
-    return assemble_route(f"Pool car to {variant.capitalize()}", "car_trip", legs, [meeting],
-                          origin=ORIGIN, terrain=TOWN_TERRAIN)
+    meeting = PlannedStop(leg=2, at_m=0.0, kind=rt.BREAK, dwell_s=meeting_s, engine_off=True)
+    name = f"Pool car to {variant.capitalize()}"
+    return assemble_route(name, "car_trip", legs, [meeting], origin=ORIGIN, terrain=TOWN_TERRAIN, cache_key=name)

@@ -30,7 +30,7 @@ import pyarrow.parquet as pq
 
 from fleetfuel import schema, units
 from fleetfuel.errors import ConfigError
-from fleetfuel.ingest.profiles import QUANTITY_OF, ColumnRule, Profile, load_profile
+from fleetfuel.ingest.profiles import QUANTITY_OF, UNIT_FROM_HEADER, ColumnRule, Profile, load_profile
 
 DEFAULT_DECIMALS: Final[dict[str, int]] = {
     schema.SPEED_M_S: 2, schema.LAT_DEG: 6, schema.LON_DEG: 6, schema.ELEVATION_M: 1,
@@ -43,11 +43,26 @@ GPX_EXTENSION_NS: Final = "https://example.invalid/gpx/phone-track/1"
 """Namespace of the invented phone app's track-point extension (``.invalid``: RFC 2606)."""
 
 
+SI_SYMBOL: Final[dict[str, str]] = {
+    "speed": "m/s", "length": "m", "volume": "L", "fuel_rate": "L/h", "temperature": "degC",
+    "fraction": "1", "rotation": "rpm", "mass": "kg",
+}
+"""Unit a writer puts in brackets for a rule whose unit is read from the header (``unit = "header"``)."""
+
+
+def _unit_symbol(rule: ColumnRule) -> str | None:
+    quantity = QUANTITY_OF.get(rule.canonical)
+    if quantity is None or rule.unit is None:
+        return None
+    return SI_SYMBOL[quantity] if rule.unit == UNIT_FROM_HEADER else rule.unit
+
+
 def _from_si(values: np.ndarray, rule: ColumnRule) -> np.ndarray:
     quantity = QUANTITY_OF.get(rule.canonical)
     out = np.asarray(values, dtype=np.float64)
-    if quantity is not None and rule.unit is not None:
-        unit = units.lookup(quantity, rule.unit)
+    symbol = _unit_symbol(rule)
+    if quantity is not None and symbol is not None:
+        unit = units.lookup(quantity, symbol)
         out = (out - unit.offset) / unit.factor
     return out / rule.scale
 
@@ -84,6 +99,8 @@ def _time_columns(times: pd.Series, profile: Profile) -> dict[str, pd.Series]:
             r"([+-]\d\d)(\d\d)", r"\1:\2", regex=True)
         return {names[0]: text + suffix}
     parts = rule.format.split(" ")
+    if rule.date_from_name:  # time-of-day files: the date parts come from the file name
+        parts = parts[len(parts) - len(names):]
     if len(parts) != len(names):
         raise ConfigError(f"profile {profile.name}: time.format {rule.format!r} must have one space-separated part "
                           f"per time column ({len(names)})")
@@ -123,8 +140,9 @@ def export_table(frame: pd.DataFrame, profile: Profile, decimals: Mapping[str, i
             values = np.abs(values)
         text = _number_text(values, digits.get(rule.canonical, 3), mark)
         if rule.strip_unit and rule.unit:
-            text = text.mask(text == "", "").where(text == "", text + " " + rule.unit)
-        out[rule.names[0]] = text
+            text = text.where(text == "", text + " " + rule.unit)
+        header = f"{rule.names[0]} [{_unit_symbol(rule)}]" if rule.unit == UNIT_FROM_HEADER else rule.names[0]
+        out[header] = text
     table = pd.DataFrame(out)
     if not profile.header:
         table = table.reindex(columns=list(profile.column_names), fill_value="")

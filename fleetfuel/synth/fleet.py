@@ -15,11 +15,12 @@ from typing import Final
 
 import numpy as np
 import pandas as pd
+import pyarrow as pa
 
 from fleetfuel import schema
 from fleetfuel.errors import ConfigError
 from fleetfuel.synth import duties
-from fleetfuel.synth.drive import DriveTruth, Logger, drive
+from fleetfuel.synth.drive import TRUTH_COLUMNS, DriveTruth, Logger, drive
 from fleetfuel.synth.routes import Route
 from fleetfuel.synth.speed import DriveConfig
 from fleetfuel.synth.vehicles import VEHICLE_CLASSES
@@ -246,12 +247,13 @@ def fleet(
     dates = pd.bdate_range(start=start_date, periods=n_days)
     cfg = cfg or DriveConfig()
     seqs = np.random.SeedSequence(seed).spawn(len(plans))
-    frames, truths, days = [], [], []
-    for plan, seq in zip(plans, seqs, strict=True):  # one iteration per vehicle
+    frames, truths, days, owners = [], [], [], []
+    for k, (plan, seq) in enumerate(zip(plans, seqs, strict=True)):  # one iteration per vehicle
         for day, result in _vehicle_days(plan, seq, dates, rate_hz, timezone, cfg):
             frames.append(result.frame)
+            owners.append((k, day))
             if with_truth:
-                truths.append(result.truth.assign(vehicle_id=plan.vehicle_id, day=day))
+                truths.append(result.truth)
             times = result.frame[schema.TIME_UTC]
             days.append({
                 "vehicle_id": plan.vehicle_id, "day": day, "date": dates[day].date().isoformat(),
@@ -259,7 +261,16 @@ def fleet(
                 "start_utc": result.start_utc, "end_utc": result.start_utc + pd.Timedelta(seconds=result.end_time_s),
                 "distance_km": result.distance_m / 1000, "fuel_l": result.fuel_used_l, "rows": len(times),
             })
-    samples = pd.concat(frames, ignore_index=True)
+    lengths = np.asarray([len(f) for f in frames], dtype=np.int64)
+    codes = np.repeat(np.asarray([k for k, _ in owners], dtype=np.int64), lengths)
+    ids = pd.array(pa.array([p.vehicle_id for p in plans]).take(pa.array(codes)), dtype="string")
+    samples = _stack(frames, [c for c in schema.RAW_COLUMNS if any(c in f.columns for f in frames)])
+    samples[schema.VEHICLE_ID] = ids
+    truth = None
+    if with_truth:
+        truth = _stack(truths, list(TRUTH_COLUMNS))
+        truth.insert(0, "vehicle_id", ids)
+        truth.insert(1, "day", np.repeat(np.asarray([d for _, d in owners], dtype=np.int64), lengths))
     vehicles = pd.DataFrame([{
         "vehicle_id": p.vehicle_id, "vehicle_class": p.vehicle_class,
         "description": VEHICLE_CLASSES[p.vehicle_class].description, "duty": p.duty, "layout": p.layout,
@@ -268,10 +279,26 @@ def fleet(
     } for p in plans])
     return SyntheticFleet(
         samples=samples,
-        truth=pd.concat(truths, ignore_index=True) if with_truth else None,
+        truth=truth,
         vehicles=vehicles,
         days=pd.DataFrame(days),
     )
+
+
+def _stack(frames: list[pd.DataFrame], columns: list[str]) -> pd.DataFrame:
+    """Concatenate frames column by column (NaN where a frame lacks a column); ids set apart."""
+    out: dict[str, object] = {}
+    for col in columns:
+        if col == schema.VEHICLE_ID:
+            out[col] = None
+            continue
+        if col == schema.TIME_UTC:
+            ns = np.concatenate([pd.DatetimeIndex(f[col]).as_unit("ns").asi8 for f in frames])
+            out[col] = pd.to_datetime(ns, unit="ns", utc=True)
+        else:
+            out[col] = np.concatenate([f[col].to_numpy() if col in f.columns else np.full(len(f), np.nan)
+                                       for f in frames])
+    return pd.DataFrame(out)
 
 
 def _kind(route_name: str) -> str:

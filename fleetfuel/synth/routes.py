@@ -18,7 +18,7 @@ import numpy as np
 import numpy.typing as npt
 
 from fleetfuel.synth.geometry import Polyline, polyline_from_plane
-from fleetfuel.synth.terrain import ElevationProfile, TerrainField, profile_from_field
+from fleetfuel.synth.terrain import ElevationProfile, TerrainField, profile_from_controls, profile_from_field
 
 FloatArray = npt.NDArray[np.float64]
 IntArray = npt.NDArray[np.int64]
@@ -42,7 +42,7 @@ STOP_NAMES: Final = {DELIVERY: "delivery", BUS_STOP: "bus_stop", TERMINAL: "term
 
 
 def kmh(value_kmh: float) -> float:
-    """A signed-road speed written in km/h, in m/s (NIST SP 811: 1 km/h = 1/3.6 m/s)."""
+    """A signposted speed given in km/h, in m/s (NIST SP 811: 1 km/h = 1/3.6 m/s)."""
     return value_kmh / 3.6
 
 
@@ -125,8 +125,6 @@ def make_road(
     length = line.length_m
     elevation = None
     if elevation_controls is not None:
-        from fleetfuel.synth.terrain import profile_from_controls
-
         shares, heights = elevation_controls
         elevation = profile_from_controls(
             length, np.asarray(shares) * length, heights, undulation_m=undulation_m,
@@ -223,6 +221,40 @@ def _concat_profiles(parts: list[ElevationProfile], starts: FloatArray) -> Eleva
     return ElevationProfile(s_m=s_all[keep], z_m=np.concatenate(z)[keep])
 
 
+_GEOMETRY_CACHE: dict[tuple, tuple[Polyline, FloatArray, FloatArray, ElevationProfile]] = {}
+_GEOMETRY_CACHE_SIZE: Final = 64
+
+
+def _geometry(
+    legs: Sequence[Road], origin: tuple[float, float], terrain: TerrainField | None, join_radius_m: float
+) -> tuple[Polyline, FloatArray, FloatArray, ElevationProfile]:
+    """Polyline, leg bounds, leg spans and elevation of a chain of roads."""
+    controls: list[FloatArray] = []
+    radii: list[FloatArray] = []
+    first_index = [0]
+    for i, road in enumerate(legs):
+        c, r = road.control_m, road.radius_m.copy()
+        if i:
+            c, r = c[1:], r[1:]
+        if i < len(legs) - 1:
+            r[-1] = join_radius_m
+        controls.append(c)
+        radii.append(r)
+        first_index.append(first_index[-1] + len(c))
+    line, control_s = polyline_from_plane(np.vstack(controls), np.concatenate(radii), *origin)
+    bounds = control_s[np.r_[0, np.asarray(first_index[1:]) - 1]]
+    span = np.diff(bounds)
+    profiles = []
+    for i, road in enumerate(legs):
+        if road.elevation is not None:
+            profiles.append(road.elevation.stretched(span[i]))
+        elif terrain is not None:
+            profiles.append(profile_from_field(terrain, line.x_m, line.y_m, line.s_m, bounds[i], bounds[i + 1]))
+        else:
+            raise ValueError(f"road {road.name!r} has no elevation and no terrain field was given")
+    return line, bounds, span, _concat_profiles(profiles, bounds[:-1]).uniform()
+
+
 def assemble_route(
     name: str,
     kind: str,
@@ -232,6 +264,7 @@ def assemble_route(
     origin: tuple[float, float],
     terrain: TerrainField | None = None,
     join_radius_m: float = 12.0,
+    cache_key: str | None = None,
 ) -> Route:
     """Chain roads into one :class:`Route` (consecutive legs must meet end to start).
 
@@ -245,39 +278,25 @@ def assemble_route(
         Corner radius where two legs meet. [m]
     terrain : TerrainField or None
         Field for legs without their own elevation profile (town streets).
+    cache_key : str, optional
+        Name of a fixed chain of roads (the same legs every time, e.g. a bus line or the trunk
+        route): its geometry is built once and reused; stops may differ between calls.
     """
-    controls: list[FloatArray] = []
-    radii: list[FloatArray] = []
-    first_index = [0]
-    for i, road in enumerate(legs):
-        c, r = road.control_m, road.radius_m.copy()
-        if i:
-            c, r = c[1:], r[1:]
-        if i < len(legs) - 1:
-            r[-1] = join_radius_m
-        controls.append(c)
-        radii.append(r)
-        first_index.append(first_index[-1] + len(c))
-    control = np.vstack(controls)
-    radius = np.concatenate(radii)
-    line, control_s = polyline_from_plane(control, radius, *origin)
-    bounds = control_s[np.r_[0, np.asarray(first_index[1:]) - 1]]
-    span = np.diff(bounds)
+    key = None if cache_key is None else (cache_key, origin, join_radius_m, len(legs))
+    if key is not None and key in _GEOMETRY_CACHE:
+        line, bounds, span, elevation = _GEOMETRY_CACHE[key]
+    else:
+        line, bounds, span, elevation = _geometry(legs, origin, terrain, join_radius_m)
+        if key is not None:
+            if len(_GEOMETRY_CACHE) >= _GEOMETRY_CACHE_SIZE:
+                _GEOMETRY_CACHE.pop(next(iter(_GEOMETRY_CACHE)))
+            _GEOMETRY_CACHE[key] = (line, bounds, span, elevation)
     scale = np.asarray([s / road.length_m for s, road in zip(span, legs, strict=True)])
 
     def to_route(leg: npt.ArrayLike, at_m: npt.ArrayLike) -> FloatArray:
         leg_arr = np.asarray(leg, dtype=np.int64)
         return bounds[leg_arr] + np.asarray(at_m, dtype=np.float64) * scale[leg_arr]
 
-    profiles = []
-    for i, road in enumerate(legs):
-        if road.elevation is not None:
-            profiles.append(road.elevation.stretched(span[i]))
-        elif terrain is not None:
-            profiles.append(profile_from_field(terrain, line.x_m, line.y_m, line.s_m, bounds[i], bounds[i + 1]))
-        else:
-            raise ValueError(f"road {road.name!r} has no elevation and no terrain field was given")
-    elevation = _concat_profiles(profiles, bounds[:-1])
 
     zone_leg = np.concatenate([np.full(len(r.zone_start_m), i) for i, r in enumerate(legs)])
     zone_start = to_route(zone_leg, np.concatenate([r.zone_start_m for r in legs]))

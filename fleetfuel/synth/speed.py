@@ -101,11 +101,22 @@ class DriveConfig:
             raise ConfigError(f"synth.grid_step_m must be in [0.1, 20] m, got {self.grid_step_m}")
 
 
+SPEED_TABLE_POINTS: Final = 6001
+"""Points of the speed table of ``tau(v)``: 0 to :data:`SPEED_TABLE_SPAN` x top speed."""
+SPEED_TABLE_SPAN: Final = 1.2
+MIN_TABLE_ACCEL_M_S2: Final = 1e-3
+"""Floor of the acceleration in ``tau(v)`` (keeps the table finite above the top speed). [m/s^2]"""
+CLIMB_TABLE_MAX_GRADE: Final = 0.25
+CLIMB_TABLE_POINTS: Final = 501
+WOBBLE_CLIP_SIGMA: Final = 2.0
+"""The free-flow speed wobble is clipped at this many standard deviations."""
+
+
 @lru_cache(maxsize=32)
 def _tau_table(vehicle: VehicleClass) -> tuple[FloatArray, FloatArray]:
     """``v -> tau(v) = int_0^v u / a(u) du`` on a fine speed grid. [m/s], [m]"""
-    v = np.linspace(0.0, vehicle.max_speed_m_s * 1.2, 6001)
-    a = np.maximum(vehicle.accel_power(v), 1e-3)
+    v = np.linspace(0.0, vehicle.max_speed_m_s * SPEED_TABLE_SPAN, SPEED_TABLE_POINTS)
+    a = np.maximum(vehicle.accel_power(v), MIN_TABLE_ACCEL_M_S2)
     integrand = v / a
     tau = np.r_[0.0, np.cumsum((integrand[1:] + integrand[:-1]) / 2 * np.diff(v))]
     return v, tau
@@ -113,7 +124,7 @@ def _tau_table(vehicle: VehicleClass) -> tuple[FloatArray, FloatArray]:
 
 @lru_cache(maxsize=32)
 def _climb_table(vehicle: VehicleClass) -> tuple[FloatArray, FloatArray]:
-    grade = np.linspace(0.0, 0.25, 501)
+    grade = np.linspace(0.0, CLIMB_TABLE_MAX_GRADE, CLIMB_TABLE_POINTS)
     return grade, vehicle.climb_speed_m_s(grade)
 
 
@@ -180,7 +191,7 @@ def speed_profile(
     ds = s[1] - s[0]
     aggression = rng.uniform(*cfg.aggression_range)
     factor = 1 + cfg.speed_factor_sigma * rng.standard_normal()
-    wobble = 1 + cfg.wobble * np.clip(_smooth_noise(n, ds, cfg.wobble_length_m, rng), -2, 2)
+    wobble = 1 + cfg.wobble * np.clip(_smooth_noise(n, ds, cfg.wobble_length_m, rng), -WOBBLE_CLIP_SIGMA, WOBBLE_CLIP_SIGMA)
     cap = route.limit_at(s) * factor * wobble
     curvature = np.interp(s, route.line.s_m, route.line.curvature_1_m)
     cap = np.minimum(cap, np.sqrt(vehicle.lateral_accel_m_s2 / np.maximum(curvature, 1e-9)))

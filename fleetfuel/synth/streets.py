@@ -10,6 +10,7 @@ the same height whichever way it is driven.
 from __future__ import annotations
 
 from collections.abc import Sequence
+from functools import lru_cache
 from typing import Final
 
 import numpy as np
@@ -132,6 +133,7 @@ def urban_round(
     return assemble_route(name, "urban_round", [road], stops, origin=ORIGIN, terrain=TOWN_TERRAIN)
 
 
+@lru_cache(maxsize=1)
 def bus_line_road() -> tuple[Road, FloatArray]:
     """Line 1 (Eastgate -> Westfield) and its stop positions (fixed for the network). [m]"""
     road, _ = street_road("Line 1", np.asarray(BUS_LINE_NODES))
@@ -166,7 +168,8 @@ def bus_shift(
             kind = rt.BREAK if dwell == break_s else rt.TERMINAL
             stops.append(PlannedStop(leg=leg, at_m=road.length_m, kind=kind, dwell_s=dwell, engine_off=kind == rt.BREAK))
     legs.append(in_road)
-    return assemble_route("Line 1 shift", "bus_line", legs, stops, origin=ORIGIN, terrain=TOWN_TERRAIN)
+    return assemble_route("Line 1 shift", "bus_line", legs, stops, origin=ORIGIN, terrain=TOWN_TERRAIN,
+                          cache_key=f"Line 1 shift x{n_round_trips}")
 
 
 def street_path(name: str, points: Sequence[Sequence[float]], x_first: Sequence[bool]) -> Road:

@@ -43,6 +43,11 @@ class ElevationProfile:
     s_m: FloatArray
     z_m: FloatArray
 
+    def _uniform_step(self) -> float:
+        """The knot spacing when knots are uniform (as :func:`uniform` makes them), else 0."""
+        step = (self.s_m[-1] - self.s_m[0]) / (len(self.s_m) - 1)
+        return step if self.s_m[0] == 0 and np.allclose(np.diff(self.s_m), step, rtol=0, atol=1e-9 * step) else 0.0
+
     def at(self, s_m: npt.ArrayLike) -> FloatArray:
         """Elevation at distances ``s_m`` (linear between knots). [m]"""
         return np.interp(s_m, self.s_m, self.z_m)
@@ -50,8 +55,18 @@ class ElevationProfile:
     def grade(self, s_m: npt.ArrayLike) -> FloatArray:
         """Grade (rise over run) at distances ``s_m``: slope of the knot interval. [1]"""
         slope = np.diff(self.z_m) / np.diff(self.s_m)
-        idx = np.clip(np.searchsorted(self.s_m, s_m, side="right") - 1, 0, len(slope) - 1)
+        step = self._uniform_step()
+        if step:
+            idx = np.clip(np.floor(np.asarray(s_m, dtype=np.float64) / step + 1e-9).astype(np.int64), 0, len(slope) - 1)
+        else:
+            idx = np.clip(np.searchsorted(self.s_m, s_m, side="right") - 1, 0, len(slope) - 1)
         return slope[idx]
+
+    def uniform(self, step_m: float = KNOT_SPACING_M) -> ElevationProfile:
+        """The profile resampled on uniform knots about ``step_m`` apart (fast :meth:`grade`). [m]"""
+        n = max(2, int(np.ceil(self.s_m[-1] / step_m)) + 1)
+        s = np.linspace(0.0, self.s_m[-1], n)
+        return ElevationProfile(s_m=s, z_m=self.at(s))
 
     def reversed(self) -> ElevationProfile:
         """The same road driven the other way."""

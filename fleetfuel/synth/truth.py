@@ -126,12 +126,11 @@ class TruthFuelModel:
         self, speed_m_s: FloatArray, accel_m_s2: FloatArray, grade: FloatArray, mass_kg: FloatArray
     ) -> FloatArray:
         """Tractive power at the wheels, :math:`P_w` (negative when braking or coasting). [kW]"""
-        theta = np.arctan(grade)
+        cos_theta = 1 / np.sqrt(1 + grade**2)  # theta = arctan(grade)
         weight = mass_kg * STANDARD_GRAVITY_M_S2
         force = (
             mass_kg * (1 + self.rotating_mass_share) * accel_m_s2
-            + weight * (self.rolling_c0 + self.rolling_c1_s_m * speed_m_s) * np.cos(theta)
-            + weight * np.sin(theta)
+            + weight * cos_theta * (self.rolling_c0 + self.rolling_c1_s_m * speed_m_s + grade)
         )
         aero = 0.5 * ISA_SEA_LEVEL_DENSITY_KG_M3 * self.drag_area_m2 * speed_m_s**3
         return (speed_m_s * force + aero) / _W_PER_KW

@@ -89,3 +89,10 @@ def test_unsorted_input_is_sorted_and_labelled_alike() -> None:
     samples = frame(v)
     shuffled = samples.sample(frac=1.0, random_state=3)
     pd.testing.assert_frame_equal(split_microtrips(shuffled), split_microtrips(samples))
+
+
+def test_naive_times_are_read_as_utc() -> None:
+    _, v = cycle("hwfet")
+    aware = frame(v, start="2024-03-04T08:00:00Z")
+    naive = aware.assign(time_utc=aware["time_utc"].dt.tz_localize(None))
+    assert split_microtrips(naive)["microtrip_id"].equals(split_microtrips(aware)["microtrip_id"])

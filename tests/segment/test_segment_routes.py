@@ -77,7 +77,9 @@ def test_discovery_recovers_the_known_routes() -> None:
 
 def test_direction_sensitive_discovery_splits_out_and_back() -> None:
     samples = split_trips(_fleet(PLAN))
-    routes, _ = discover_routes(trip_table(samples), samples, SegmentConfig(direction_agnostic=False, route_unit="trip"))
+    routes, _ = discover_routes(
+        trip_table(samples), samples, SegmentConfig(direction_agnostic=False, route_unit="trip")
+    )
     assert routes.nunique() == 6
 
 

@@ -150,8 +150,19 @@ def test_missing_columns_are_named() -> None:
 
 
 @pytest.mark.parametrize(
-    "kwargs", [{"trip_break_s": -1.0}, {"period_rest_s": 60.0}, {"path_min_overlap": 1.5}, {"direction_agnostic": 1}]
+    "kwargs",
+    [{"trip_break_s": -1.0}, {"period_rest_s": 60.0}, {"path_min_overlap": 1.5}, {"direction_agnostic": 1}],
 )
 def test_config_rejects_bad_values(kwargs: dict) -> None:
     with pytest.raises(ConfigError, match="segment."):
         SegmentConfig(**kwargs)
+
+
+def test_config_loads_from_a_run_toml_table() -> None:
+    # The [segment] table of a run TOML maps key by key (fleetfuel.config.from_mapping).
+    from fleetfuel.config import from_mapping
+
+    cfg = from_mapping(SegmentConfig, {"trip_break_s": 600, "route_unit": "trip"}, "run.toml [segment]")
+    assert cfg.trip_break_s == 600.0 and cfg.route_unit == "trip"
+    with pytest.raises(ConfigError, match=r"route_unit: choose from \('period', 'trip'\)"):
+        from_mapping(SegmentConfig, {"route_unit": "day"}, "run.toml [segment]")

@@ -38,6 +38,7 @@ def test_gear_counting_helpers() -> None:
 def test_gentle_acceleration_climbs_through_the_gears(strategy: str) -> None:
     t = np.arange(0.0, 61.0)
     speed = np.minimum(0.5 * t, 100 * KMH)  # 0.5 m/s^2 up to 100 km/h, then cruise
+    # a driver accelerating gently only shifts up, one gear held at a time (common practice, no source)
     result = simulate_trace(t, speed, None, spec("car_petrol"), cfg=SimConfig(shift_strategy=strategy))
     engaged = result.steps.gear[result.steps.gear > 0]
     assert np.all(np.diff(engaged) >= 0)  # only upshifts while accelerating
@@ -46,7 +47,8 @@ def test_gentle_acceleration_climbs_through_the_gears(strategy: str) -> None:
 
 
 def test_no_gear_hunting_on_a_noisy_cruise() -> None:
-    # 50 km/h with +/-1.5 km/h of sinusoidal wobble (10 s period) for 10 minutes
+    # 50 km/h with +/-1.5 km/h of sinusoidal wobble (10 s period) for 10 minutes: a steady cruise is
+    # driven in one gear; a strategy that hunts between two gears fails (common practice, no source)
     t, speed = constant_speed(50 * KMH, 600.0)
     speed = speed + 1.5 * KMH * np.sin(2 * np.pi * t / 10)
     for stem in ("car_petrol", "van_diesel", "rigid_18t_diesel_170kw"):
