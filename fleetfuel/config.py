@@ -21,6 +21,7 @@ from fleetfuel.clean.config import CleanConfig
 from fleetfuel.errors import ConfigError
 from fleetfuel.ingest.config import IngestConfig
 from fleetfuel.segment.config import SegmentConfig
+from fleetfuel.simulate.config import SimConfig
 
 T = TypeVar("T")
 
@@ -32,6 +33,7 @@ class RunConfig:
     ingest: IngestConfig = field(default_factory=IngestConfig)
     clean: CleanConfig = field(default_factory=CleanConfig)
     segment: SegmentConfig = field(default_factory=SegmentConfig)
+    simulate: SimConfig = field(default_factory=SimConfig)
 
 
 def _coerce(value: Any, annotation: Any, where: str) -> Any:

@@ -193,7 +193,7 @@ def _odd(n: float) -> int:
 def _binned(d: FloatArray, z: FloatArray, step_m: float) -> tuple[float, FloatArray]:
     """Start of the grid and the bin means of ``z`` over distance (empty bins interpolated)."""
     d0 = float(d.min())
-    size = int(np.floor((float(d.max()) - d0) / step_m)) + 1
+    size = int(np.ceil((float(d.max()) - d0) / step_m)) + 1  # the grid covers every sample
     b = np.minimum(np.rint((d - d0) / step_m).astype(np.int64), size - 1)
     count = np.bincount(b, minlength=size)
     total = np.bincount(b, weights=z, minlength=size)
@@ -248,14 +248,12 @@ def grade_profile(distance_m: npt.ArrayLike, elevation_m: npt.ArrayLike, cfg: Cl
     idx = np.arange(smooth.size)
     span = (np.minimum(idx + half, smooth.size - 1) - np.maximum(idx - half, 0)) * ds
     grade_grid = (ahead - behind) / span
-    steep = np.abs(grade_grid) > cfg.grade_limit
-    grade_grid = np.clip(grade_grid, -cfg.grade_limit, cfg.grade_limit)
     grid_m = d0 + ds * idx
     elev, grade = nan.copy(), nan.copy()
     elev[fin] = np.interp(d[fin], grid_m, smooth)
     grade[fin] = np.interp(d[fin], grid_m, grade_grid)
-    clipped = none.copy()
-    clipped[fin] = steep[np.clip(np.rint((d[fin] - d0) / ds).astype(np.int64), 0, smooth.size - 1)]
+    clipped = np.abs(np.nan_to_num(grade)) > cfg.grade_limit
+    grade = np.clip(grade, -cfg.grade_limit, cfg.grade_limit)
     climb = float(np.clip(np.diff(smooth), 0, None).sum())
     return GradeProfile(elev, grade, clipped, climb)
 
