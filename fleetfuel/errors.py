@@ -46,6 +46,12 @@ class CycleError(FleetFuelError, ValueError):
     exit_code = 6
 
 
+class OutputError(FleetFuelError, OSError):
+    """An output or work folder cannot be created or written (e.g. read-only, a file in the way)."""
+
+    exit_code = 7
+
+
 class InternalError(RuntimeError):
     """A broken invariant inside fleetfuel (e.g. the row account does not add up): a bug, never
     bad input. Deliberately NOT a :class:`FleetFuelError`, so it escapes with its traceback."""

@@ -28,7 +28,13 @@ from fleetfuel.clean.order import duplicate_reasons, sort_samples
 from fleetfuel.clean.outliers import position_outliers, speed_spikes
 from fleetfuel.clean.parked import standstill
 from fleetfuel.clean.resample import resample, time_base
-from fleetfuel.clean.vehicle import CLEAN_COLUMNS, DROPPED_COLUMNS, VehicleClean, clean_vehicle, empty_clean_frame
+from fleetfuel.clean.vehicle import (
+    CLEAN_COLUMNS,
+    DROPPED_COLUMNS,
+    VehicleClean,
+    clean_vehicle,
+    empty_clean_frame,
+)
 from fleetfuel.ingest.base import LogBatch, empty_raw_frame
 
 __all__ = [

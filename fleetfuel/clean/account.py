@@ -32,14 +32,14 @@ Columns (:data:`ACCOUNT_TABLE_COLUMNS`):
 
 from __future__ import annotations
 
-from typing import Final
+from typing import Any, Final
 
 import numpy as np
 import pandas as pd
 
 from fleetfuel import schema
 from fleetfuel.errors import InternalError
-from fleetfuel.ingest.base import LogBatch
+from fleetfuel.ingest.base import LogBatch, LogFile
 
 M_PER_KM: Final = 1000.0  # SI prefix kilo, exact
 
@@ -88,13 +88,42 @@ def check_identity(path: str, rows_in: int, rows_kept: int, dropped: dict[str, i
         raise InternalError(f"row account for {path}: drop reasons {sorted(unknown)} not in schema.DROP_REASONS")
 
 
-def _empty_row(path: str) -> dict[str, object]:
+def _empty_row(path: str) -> dict[str, Any]:
     return {
         "path": path, "vehicle_ids": [], "rows_in": 0, "rows_kept": 0, "rows_interpolated": 0,
         "dropped": {}, "error": None, "gaps": 0, "logging_interval_s": float("nan"),
         "driving_time_s": 0.0, "distance_km": 0.0, "climb_m": 0.0, "time_start": pd.NaT,
         "time_end": pd.NaT, "flags": [], "profile": None, "positions_blanked": 0, "grade_clipped": 0,
     }
+
+
+def _file_row(log: LogFile, part: pd.DataFrame | None, drops: pd.Series) -> dict[str, Any]:
+    """Account row of one read file: reader drops + clean drops, summaries summed over vehicles."""
+    path = str(log.path)
+    row = _empty_row(path)
+    dropped: dict[str, int] = {}
+    if len(log.dropped):
+        for why, count in log.dropped["reason"].astype(str).value_counts(sort=False).items():
+            dropped[why] = dropped.get(why, 0) + int(count)
+    if len(drops) and path in drops.index.get_level_values(0):
+        for why, count in drops.loc[path].items():
+            dropped[str(why)] = dropped.get(str(why), 0) + int(count)
+    flags: list[str] = []
+    if part is not None:
+        for key in _SUMMED:
+            row[key] = part[key].sum().item()
+        row["distance_km"] = float(row.pop("distance_m")) / M_PER_KM
+        row["vehicle_ids"] = sorted(str(v) for v in part[schema.VEHICLE_ID].dropna().unique())
+        row["logging_interval_s"] = weighted_median(part["logging_interval_s"].to_numpy(), part["intervals"].to_numpy())
+        row["time_start"] = part["time_start"].min()
+        row["time_end"] = part["time_end"].max()
+        flags = [f for fs in part["flags"] for f in fs]
+    row["flags"] = list(dict.fromkeys([*log.flags, *flags]))
+    row["rows_in"] = int(log.rows_in)
+    row["dropped"] = dict(sorted(dropped.items()))
+    row["profile"] = log.profile
+    check_identity(path, int(log.rows_in), int(row["rows_kept"]), row["dropped"])
+    return row
 
 
 def build_account(batch: LogBatch, summaries: pd.DataFrame, clean_dropped: pd.DataFrame) -> pd.DataFrame:
@@ -118,40 +147,14 @@ def build_account(batch: LogBatch, summaries: pd.DataFrame, clean_dropped: pd.Da
     drops = (
         clean_dropped.groupby([schema.SOURCE_FILE, "reason"]).size() if len(clean_dropped) else pd.Series(dtype=int)
     )
-    rows = []
-    for log in batch.files:
-        path = str(log.path)
-        row = _empty_row(path)
-        dropped: dict[str, int] = {}
-        if len(log.dropped):
-            for why, count in log.dropped["reason"].astype(str).value_counts(sort=False).items():
-                dropped[why] = dropped.get(why, 0) + int(count)
-        if path in drops.index.get_level_values(0):
-            for why, count in drops.loc[path].items():
-                dropped[str(why)] = dropped.get(str(why), 0) + int(count)
-        part = by_file.get(path)
-        if part is not None:
-            for key in _SUMMED:
-                row[key] = part[key].sum().item()
-            row["distance_km"] = float(row.pop("distance_m")) / M_PER_KM
-            row["vehicle_ids"] = sorted(str(v) for v in part[schema.VEHICLE_ID].dropna().unique())
-            row["logging_interval_s"] = weighted_median(part["logging_interval_s"].to_numpy(), part["intervals"].to_numpy())
-            row["time_start"] = part["time_start"].min()
-            row["time_end"] = part["time_end"].max()
-            flags = [f for fs in part["flags"] for f in fs]
-        else:
-            flags = []
-        row["flags"] = list(dict.fromkeys([*log.flags, *flags]))
-        row["rows_in"] = int(log.rows_in)
-        row["dropped"] = dict(sorted(dropped.items()))
-        row["profile"] = log.profile
-        check_identity(path, row["rows_in"], int(row["rows_kept"]), row["dropped"])
-        rows.append(row)
+    rows = [_file_row(log, by_file.get(str(log.path)), drops) for log in batch.files]
     for failure in batch.failures:
         row = _empty_row(str(failure.path))
         row["error"] = failure.error
         rows.append(row)
     table = pd.DataFrame(rows, columns=list(ACCOUNT_TABLE_COLUMNS))
+    for col in ("error", "profile"):  # None stays None (not NaN) for the JSON report
+        table[col] = pd.Series([r[col] for r in rows], dtype=object, index=table.index)
     for col in ("time_start", "time_end"):
         table[col] = pd.to_datetime(table[col], utc=True).astype("datetime64[ns, UTC]")
     for col in ("rows_in", "rows_kept", "rows_interpolated", "gaps", "positions_blanked", "grade_clipped"):

@@ -36,7 +36,9 @@ class CleanConfig:
     speed_ceiling_m_s : float
         Reported speeds above this (or below 0) are ``speed_impossible``. [m/s]
     accel_limit_m_s2 : float
-        Speed steps faster than this (per step of at least ``step_s``) open a spike. [m/s^2]
+        Speed gains faster than this (per step of at least ``step_s``) are impossible. [m/s^2]
+    brake_limit_m_s2 : float
+        Speed losses faster than this are impossible. [m/s^2]
     spike_max_s : float
         Longest run of samples removed as one spike (speed or position outlier). [s]
     position_jump_factor : float
@@ -54,6 +56,8 @@ class CleanConfig:
     drift_progress_share : float
         A run whose straight-line progress is below this share of the distance its speeds claim
         is parked drift (:mod:`fleetfuel.clean.parked`). [1]
+    drift_radius_m : float
+        ... if its fixes also stay within this distance of their median. [m]
     reconcile_min_speed_m_s : float
         Reported vs position speeds are compared only on samples faster than this. [m/s]
     reconcile_min_samples : int
@@ -107,10 +111,12 @@ class CleanConfig:
     # 250 km/h: most fast cars are electronically limited there; trucks (N2/N3) are limited to
     # 90 km/h in the EU (Directive 92/6/EEC as amended by 2002/85/EC, from memory).
     speed_ceiling_m_s: float = 250.0 * KMH_M_S
-    # Tyre-road peak adhesion on dry asphalt, 0.8 g (constants.ADHESION_DRY_ASPHALT: Wong, Theory
-    # of Ground Vehicles, 4th ed., Table 1.3, from memory): a speed spike brakes AND accelerates
-    # at least this hard within a second, and no truck, van or fleet car accelerates at 0.8 g.
-    accel_limit_m_s2: float = ADHESION_DRY_ASPHALT * STANDARD_GRAVITY_M_S2
+    # 4 m/s^2 (0.4 g) is 0-100 km/h in 7 s: beyond any truck or van and most fleet cars
+    # (common practice, no source).
+    accel_limit_m_s2: float = 4.0
+    # Braking is bounded by tyre-road peak adhesion on dry asphalt, 0.8 g
+    # (constants.ADHESION_DRY_ASPHALT: Wong, Theory of Ground Vehicles, 4th ed., Table 1.3, from memory).
+    brake_limit_m_s2: float = ADHESION_DRY_ASPHALT * STANDARD_GRAVITY_M_S2
     spike_max_s: float = 10.0  # glitches last a few samples (common practice, no source)
     position_jump_factor: float = 1.5  # common practice, no source
     # Consumer GNSS horizontal error is a few metres (95 %) in the open; 20 m covers urban
@@ -123,6 +129,8 @@ class CleanConfig:
     creep_window_s: float = 10.0  # common practice, no source
     parked_window_s: float = 60.0  # common practice, no source
     drift_progress_share: float = 0.5  # common practice, no source
+    # Parked GNSS drift wanders a few tens of metres at most (common practice, no source).
+    drift_radius_m: float = 50.0
 
     # --- reported vs position speed ---------------------------------------------------------------
     reconcile_min_speed_m_s: float = 5.0  # common practice, no source

@@ -85,6 +85,7 @@ def acceleration_m_s2(speed_m_s: npt.ArrayLike, segment: npt.ArrayLike, step_s: 
     back[~same_prev] = np.nan
     ahead[~same_next] = np.nan
     both = same_prev & same_next
-    out = np.where(both, (back + ahead) / (2 * step_s), np.where(same_prev, back, ahead) / step_s)
+    one_sided = np.asarray(np.where(same_prev, back, ahead), dtype=np.float64)
+    out = np.where(both, (back + ahead) / (2 * step_s), one_sided / step_s)
     out[~same_prev & ~same_next] = np.nan
     return out

@@ -3,7 +3,8 @@
 Spikes are found the same way for speed and for positions, vectorised over the whole log:
 
 1. a *jump* is a step between consecutive samples that no road vehicle can make (speed: a
-   change faster than ``accel_limit_m_s2``, with the time step floored at ``step_s`` so that
+   gain faster than ``accel_limit_m_s2`` or a loss faster than ``brake_limit_m_s2``, with the
+   time step floored at ``step_s`` so that
    high-rate loggers that refresh a value in one row are judged per second; position: an implied
    speed above ``position_jump_factor * speed_ceiling_m_s`` plus ``position_noise_m``);
 2. two jumps no more than ``spike_max_s`` apart (with at most two further jumps between them)
@@ -193,7 +194,7 @@ def speed_spikes(time_s: npt.ArrayLike, speed_m_s: npt.ArrayLike, cfg: CleanConf
     speed_m_s : array_like
         Reported speed (NaN where absent; NaN rows are skipped). [m/s]
     cfg : CleanConfig
-        ``accel_limit_m_s2``, ``step_s``, ``spike_max_s``.
+        ``accel_limit_m_s2``, ``brake_limit_m_s2``, ``step_s``, ``spike_max_s``.
 
     Returns
     -------
@@ -208,23 +209,25 @@ def speed_spikes(time_s: npt.ArrayLike, speed_m_s: npt.ArrayLike, cfg: CleanConf
         return out
     t, v = t_all[have], v_all[have]
 
-    def allowed(a: IntArray, b: IntArray) -> FloatArray:
-        return cfg.accel_limit_m_s2 * np.maximum(np.abs(t[b] - t[a]), cfg.step_s)
+    def within(dv: FloatArray, dt: FloatArray) -> BoolArray:
+        """Can a road vehicle change speed by ``dv`` in ``dt`` (floored at one step)?"""
+        span = np.maximum(np.abs(dt), cfg.step_s)
+        return (dv <= cfg.accel_limit_m_s2 * span) & (dv >= -cfg.brake_limit_m_s2 * span)
 
     def jump_of(alive: IntArray) -> tuple[BoolArray, BoolArray | None]:
         dv = np.r_[0.0, np.diff(v[alive])]
-        prev = np.r_[alive[0], alive[:-1]]
-        return np.abs(dv) > allowed(prev, alive), dv > 0
+        dt = np.r_[0.0, np.diff(t[alive])]
+        return ~within(dv, dt), dv > 0
 
     def consistent_of(alive: IntArray) -> Consistent:
-        return lambda a, b: np.abs(v[alive[b]] - v[alive[a]]) <= allowed(alive[a], alive[b])
+        return lambda a, b: within(v[alive[b]] - v[alive[a]], t[alive[b]] - t[alive[a]])
 
     def odd_of(alive: IntArray) -> Odd:
         def odd(a: IntArray, k: IntArray, b: IntArray) -> BoolArray:
             a, k, b = alive[a], alive[k], alive[b]
             line = v[a] + (v[b] - v[a]) * (t[k] - t[a]) / (t[b] - t[a])
-            nearest_s = np.maximum(np.minimum(t[k] - t[a], t[b] - t[k]), cfg.step_s)
-            return np.abs(v[k] - line) > cfg.accel_limit_m_s2 * nearest_s
+            nearest_s = np.minimum(t[k] - t[a], t[b] - t[k])
+            return ~within(v[k] - line, nearest_s)
 
         return odd
 

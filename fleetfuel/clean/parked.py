@@ -10,8 +10,10 @@ to creep, its speed never quite reaches zero and distance grows. A grid sample i
   ``creep_window_s``, as speeds worked out from wandering fixes jitter) lasting at least
   ``parked_window_s``, over which the vehicle made good (straight-line distance between the
   run's first and last fixes) less than ``drift_progress_share`` of the distance its speeds
-  claim. Creeping in a queue makes good what it claims; drift around a parked spot does not.
-  (A slow manoeuvre that ends where it began, in a yard, counts as standstill too.)
+  claim, while 95 % of its fixes stay within ``drift_radius_m`` of their median. Creeping in a
+  queue makes good what it claims; drift around a parked spot does not, nor does it wander off
+  (a slow loop of hundreds of metres is movement). A slow manoeuvre that ends where it began,
+  within a yard, counts as standstill too.
 
 At standstill the speed is set to 0 and the position is held at the first fix of the standstill
 run, so that neither distance nor position-derived speed accumulates drift.
@@ -24,6 +26,8 @@ Kaplan, E. D. and Hegarty, C. J. (2017). Understanding GPS/GNSS: Principles and 
 
 from __future__ import annotations
 
+from typing import Final
+
 import numpy as np
 import numpy.typing as npt
 import pandas as pd
@@ -33,6 +37,9 @@ from fleetfuel.clean.geodesy import geodesic_distance_m
 
 FloatArray = npt.NDArray[np.float64]
 BoolArray = npt.NDArray[np.bool_]
+
+SPREAD_QUANTILE: Final = 0.95
+"""A drift run's fixes must stay near its median fix at this quantile (one glitch may not count)."""
 
 
 def _runs(mask: BoolArray, segment: npt.NDArray[np.int64]) -> npt.NDArray[np.int64]:
@@ -78,7 +85,8 @@ def drift_runs(
     step_s : float
         Grid step. [s]
     cfg : CleanConfig
-        ``creep_speed_m_s``, ``creep_window_s``, ``parked_window_s``, ``drift_progress_share``.
+        ``creep_speed_m_s``, ``creep_window_s``, ``parked_window_s``, ``drift_progress_share``,
+        ``drift_radius_m``.
     """
     speed = np.asarray(speed_m_s, dtype=np.float64)
     n = speed.size
@@ -97,12 +105,17 @@ def drift_runs(
     groups = frame.groupby("run", sort=True)
     first = groups[["lat", "lon"]].first()
     last = groups[["lat", "lon"]].last()
+    centre = groups[["lat", "lon"]].transform("median")
+    frame = frame.assign(off=geodesic_distance_m(frame["lat"], frame["lon"], centre["lat"], centre["lon"]))
+    spread = frame.groupby("run", sort=True)["off"].quantile(SPREAD_QUANTILE).to_numpy()
     claimed = groups["claimed"].sum()
     duration = groups.size() * step_s
     made_good = geodesic_distance_m(first["lat"], first["lon"], last["lat"], last["lon"])
     with np.errstate(invalid="ignore"):
-        parked = (duration.to_numpy() >= cfg.parked_window_s) & (
-            made_good < cfg.drift_progress_share * claimed.to_numpy()
+        parked = (
+            (duration.to_numpy() >= cfg.parked_window_s)
+            & (made_good < cfg.drift_progress_share * claimed.to_numpy())
+            & (spread <= cfg.drift_radius_m)
         )
     is_parked_run = np.zeros(int(run.max()) + 1, dtype=bool)
     is_parked_run[duration.index.to_numpy()] = parked

@@ -3,8 +3,9 @@
 1. rows without time or vehicle, invalid positions (blanked when the row has a reported speed,
    else dropped ``position_invalid``), rows left with neither speed nor position;
 2. stable time sort, duplicates (:mod:`fleetfuel.clean.order`);
-3. impossible speeds, speed spikes, position spikes and steps (:mod:`fleetfuel.clean.outliers`;
-   a position spike on a row with a reported speed blanks the position and keeps the row);
+3. stale (carried-forward) fixes, impossible speeds, speed spikes, position spikes and steps
+   (:mod:`fleetfuel.clean.outliers`; a bad position on a row with a reported speed is blanked
+   and the row kept, without a speed the row is dropped with the reason);
 4. uniform grid with breaks (:mod:`fleetfuel.clean.resample`);
 5. speed from positions where the log has none; reported vs derived speed check;
 6. standstill and parked drift (:mod:`fleetfuel.clean.parked`);
@@ -29,7 +30,13 @@ from fleetfuel.clean.config import CleanConfig
 from fleetfuel.clean.elevation import grade_profile
 from fleetfuel.clean.geodesy import invalid_position, step_distance_m
 from fleetfuel.clean.motion import acceleration_m_s2, cumulative_distance_m, speed_from_positions
-from fleetfuel.clean.order import NS_PER_S, duplicate_reasons, logging_interval_s, positive_intervals_s, time_ns
+from fleetfuel.clean.order import (
+    NS_PER_S,
+    duplicate_reasons,
+    logging_interval_s,
+    positive_intervals_s,
+    time_ns,
+)
 from fleetfuel.clean.outliers import impossible_speed, position_outliers, speed_spikes, stale_fixes
 from fleetfuel.clean.parked import hold_positions, standstill
 from fleetfuel.clean.resample import resample, segment_ids, time_base
@@ -230,6 +237,8 @@ def clean_vehicle(samples: pd.DataFrame, cfg: CleanConfig) -> VehicleClean:
     lon0 = grid[schema.LON_DEG].to_numpy(dtype=np.float64)
     reported = grid[schema.SPEED_M_S].to_numpy(dtype=np.float64)
     derived = speed_from_positions(lat0, lon0, seg, h)
+    with np.errstate(invalid="ignore"):  # a position jump left in (a lasting step): not a speed
+        derived[derived > cfg.speed_ceiling_m_s] = np.nan
     speed = np.where(np.isfinite(reported), reported, derived)
     parked = standstill(speed, lat0, lon0, seg, h, cfg) & np.isfinite(speed)
     speed = np.where(parked, 0.0, speed)
@@ -247,6 +256,8 @@ def clean_vehicle(samples: pd.DataFrame, cfg: CleanConfig) -> VehicleClean:
     out[schema.ELEVATION_RAW_M] = raw_elev
     out[schema.GRADE] = grade
     out = out[list(CLEAN_COLUMNS)]
+    for name in schema.STRING_COLUMNS:
+        out[name] = out[name].astype("string")
 
     dropped = _dropped_table(w, alive, reason)
     if len(kept) + len(dropped) != n:

@@ -5,9 +5,11 @@ candidate cycles are random combinations of the type's pieces (:mod:`fleetfuel.c
 adding up to the target duration. Each round scores ``cfg.candidates`` of them at once and
 improves the round's best by an exchange search (our addition: each pass evaluates every single
 swap, addition and removal of a piece at once and applies the best, until none improves or
-``cfg.swap_passes`` is reached); the best over ``cfg.rounds`` rounds is kept. The score of a candidate is
+``cfg.swap_passes`` is reached). The ``cfg.rounds`` improved sets are then judged on their
+assembled traces (:mod:`fleetfuel.cycles.build`: fewest statistics off their goal, then the
+score) and the best is kept. The score of a candidate is
 
-.. math:: S = \sqrt{\overline{e^2}} + \sum_s \max(e_s - \tau, 0) + w\,\Delta_{SAFD}
+.. math:: S = \sqrt{\overline{e^2}} + 10 \sum_s \max(e_s - \tau, 0) + w\,\Delta_{SAFD}
 
 with :math:`e_s` the normalised error of statistic :math:`s` against the type
 (:func:`fleetfuel.cycles.stats.normalised_errors`, :math:`\tau` 80 % of the 5 % goal, see
@@ -20,9 +22,9 @@ pieces' additive sums and SAFD counts; an exchange pass scores all moves with th
 expanded into dot products, :math:`\lVert h - H_i + H_j \rVert^2` from precomputed products.
 Seeded: one generator per type from ``(cfg.seed, type number)``.
 
-A cycle is its pieces in order: the whole micro-trips (as drawn), then the chain of a head, its
-windows and a tail when there is one; each starts and ends at rest except where a chain's pieces
-join at the splice speed.
+Candidates, their draws and the exchange moves are in :mod:`fleetfuel.cycles.chains`. A cycle is
+its pieces in order: the whole micro-trips (as drawn), then the chain (head, windows, tail) when
+there is one; each starts and ends at rest except where a chain's pieces join at a splice level.
 """
 
 from __future__ import annotations
@@ -33,23 +35,16 @@ from typing import Final
 import numpy as np
 import numpy.typing as npt
 import pandas as pd
-from scipy import sparse
 
 from fleetfuel import schema
+from fleetfuel.cycles.chains import Problem, chain_order, exchange_moves, random_sets
 from fleetfuel.cycles.config import CyclesConfig
 from fleetfuel.cycles.pieces import PiecePool
-from fleetfuel.cycles.stats import SUM_COLUMNS, normalised_errors, stats_from_sums
 
 FloatArray = npt.NDArray[np.float64]
 IntArray = npt.NDArray[np.int64]
 
-CHUNK: Final = 256  # candidates drawn at once (bounds the keys matrix to CHUNK x pieces)
 IMPROVEMENT: Final = 1e-12  # smallest score gain an exchange must bring
-# The search aims at 80 % of the statistics' goal: the splices and the ends of the pieces move the
-# assembled trace's statistics slightly off the pieces' sums (our choice, no source).
-SEARCH_GOAL_SHARE: Final = 0.8
-EXCHANGE_SAMPLE: Final = 600  # outside pieces tried per exchange pass (bounds a pass to ~10^4 moves)
-_T = SUM_COLUMNS.index("t")
 TRACE_COLUMNS: Final = ("time_s", "speed_m_s", "grade", "elevation_m", "piece_id")
 """Columns of :func:`cycle_trace` (elevation relative to the start, from the grade)."""
 
@@ -63,9 +58,9 @@ class Selection:
     pieces : ndarray of int
         Rows of the pool table, in cycle order.
     score : float
-        Score of the selection (see the module docstring); inf when no valid cycle exists.
+        Score of the selection predicted from the pieces' sums (see the module docstring).
     evaluated : int
-        Candidates and moves scored.
+        Candidates and moves scored for the type (all rounds).
     """
 
     pieces: IntArray
@@ -73,50 +68,19 @@ class Selection:
     evaluated: int
 
 
-@dataclass(frozen=True, slots=True)
-class _Problem:
-    """One type's pool and target, as arrays (pool rows ``idx``)."""
-
-    idx: IntArray
-    kind: npt.NDArray[np.str_]
-    duration: FloatArray
-    sums: FloatArray
-    hist: FloatArray
-    target: FloatArray
-    target_p: FloatArray
-    cfg: CyclesConfig
-
-    def score(self, sums: FloatArray, hist_sq: FloatArray, hist_p: FloatArray, hist_total: FloatArray) -> FloatArray:
-        """Scores from summed sums and the SAFD moments :math:`\\sum q^2`, :math:`\\sum q p`, :math:`\\sum q`."""
-        cfg = self.cfg
-        err = normalised_errors(stats_from_sums(sums), self.target, cfg)
-        p_sq = float(np.sum(self.target_p**2))
-        with np.errstate(invalid="ignore", divide="ignore"):
-            diff = (hist_sq / hist_total**2 - 2 * hist_p / hist_total + p_sq) / p_sq
-        excess = np.maximum(err - SEARCH_GOAL_SHARE * cfg.stat_tolerance, 0.0)
-        total = np.sqrt(np.mean(err**2, axis=-1)) + np.sum(excess, axis=-1)
-        total = total + cfg.safd_weight * np.where(hist_total > 0, diff, np.inf)
-        off = np.abs(sums[..., _T] - cfg.target_duration_s) > cfg.duration_tolerance * cfg.target_duration_s
-        return np.where(off | ~np.isfinite(total), np.inf, total)
-
-    def score_sets(self, x: sparse.csr_matrix) -> FloatArray:
-        """Scores of the sets given as rows of a (sets x pool) 0/1 matrix."""
-        sums = np.asarray(x @ self.sums)
-        hist = np.asarray(x @ self.hist)
-        return self.score(sums, np.sum(hist**2, axis=1), hist @ self.target_p, hist.sum(axis=1))
-
-
-def _problem(pool: PiecePool, type_name: str, target: FloatArray, cfg: CyclesConfig) -> _Problem:
+def _problem(pool: PiecePool, type_name: str, target: FloatArray, cfg: CyclesConfig) -> Problem:
     table = pool.table
     longest = cfg.target_duration_s * (1 + cfg.duration_tolerance)
     of_type = (table["type"] == type_name).to_numpy(dtype=bool, na_value=False)
-    hist_all = pool.safd[of_type].sum(axis=0)
-    usable = of_type & (table["duration_s"].to_numpy() <= longest) & (table["duration_s"].to_numpy() > 0)
-    idx = np.flatnonzero(usable)
-    return _Problem(
+    hist_all = pool.type_safd.get(type_name, np.zeros(pool.safd.shape[1]))
+    duration = table["duration_s"].to_numpy(dtype=np.float64)
+    idx = np.flatnonzero(of_type & (duration <= longest) & (duration > 0))
+    return Problem(
         idx=idx,
         kind=table["kind"].to_numpy(dtype=str)[idx],
-        duration=table["duration_s"].to_numpy(dtype=np.float64)[idx],
+        entry=table["entry_level"].to_numpy(dtype=np.int64)[idx],
+        exit=table["exit_level"].to_numpy(dtype=np.int64)[idx],
+        duration=duration[idx],
         sums=pool.sums[idx],
         hist=pool.safd[idx],
         target=target,
@@ -125,72 +89,8 @@ def _problem(pool: PiecePool, type_name: str, target: FloatArray, cfg: CyclesCon
     )
 
 
-def _random_sets(prob: _Problem, rng: np.random.Generator, n: int) -> sparse.csr_matrix:
-    """``n`` random sets of pieces near the target duration, as rows of a 0/1 matrix."""
-    cfg = prob.cfg
-    fill = np.flatnonzero(np.isin(prob.kind, ("whole", "window")))
-    heads, tails = np.flatnonzero(prob.kind == "head"), np.flatnonzero(prob.kind == "tail")
-    is_window = prob.kind[fill] == "window"
-    chain_time = prob.duration[prob.kind != "whole"].sum()
-    p_chain = chain_time / prob.duration.sum() if heads.size and tails.size else 0.0
-    if not (fill[~is_window].size or p_chain):
-        return sparse.csr_matrix((0, prob.idx.size))
-    p_chain = 1.0 if fill[~is_window].size == 0 else p_chain
-    chain = rng.random(n) < p_chain
-    head = heads[rng.integers(heads.size, size=n)] if chain.any() else np.zeros(n, dtype=np.int64)
-    tail = tails[rng.integers(tails.size, size=n)] if chain.any() else np.zeros(n, dtype=np.int64)
-    base = np.where(chain, prob.duration[head] + prob.duration[tail], 0.0)
-    shortest = prob.duration[fill].min() if fill.size else cfg.target_duration_s
-    width = int(min(fill.size, np.ceil(cfg.target_duration_s * (1 + cfg.duration_tolerance) / shortest) + 1))
-    rows, cols = [np.flatnonzero(chain)] * 2, [head[chain], tail[chain]]
-    for start in range(0, n, CHUNK):
-        part = slice(start, min(start + CHUNK, n))
-        keys = rng.random((part.stop - part.start, fill.size))
-        keys[np.ix_(~chain[part], is_window)] = np.inf
-        if width == 0:
-            continue
-        take = np.argpartition(keys, width - 1, axis=1)[:, :width] if width < fill.size else np.tile(np.arange(fill.size), (keys.shape[0], 1))
-        take = np.take_along_axis(take, np.argsort(np.take_along_axis(keys, take, axis=1), axis=1), axis=1)
-        dur = np.where(np.isfinite(np.take_along_axis(keys, take, axis=1)), prob.duration[fill[take]], np.inf)
-        totals = np.concatenate([base[part, None], base[part, None] + np.cumsum(dur, axis=1)], axis=1)
-        count = np.argmin(np.abs(totals - cfg.target_duration_s), axis=1)
-        r, c = np.nonzero(np.arange(width)[None, :] < count[:, None])
-        rows.append(r + part.start)
-        cols.append(fill[take[r, c]])
-    r, c = np.concatenate(rows), np.concatenate(cols)
-    return sparse.csr_matrix((np.ones(r.size), (r, c)), shape=(n, prob.idx.size))
-
-
-def _moves(prob: _Problem, members: IntArray, rng: np.random.Generator) -> tuple[IntArray, IntArray, FloatArray]:
-    """Single exchanges of ``members``: (removed, added, SAFD cross product), -1 for none.
-
-    Every member may be removed or swapped; the pieces it may be swapped for (or that may be
-    added) are all others of the type, or a seeded sample of ``EXCHANGE_SAMPLE`` of them.
-    """
-    inside = np.zeros(prob.idx.size, dtype=bool)
-    inside[members] = True
-    chain = bool(np.any(prob.kind[members] == "head"))
-    is_fill = np.isin(prob.kind, ("whole", "window") if chain else ("whole",))
-    out_fill = np.flatnonzero(is_fill & ~inside)
-    if out_fill.size > EXCHANGE_SAMPLE:
-        out_fill = np.sort(rng.choice(out_fill, size=EXCHANGE_SAMPLE, replace=False))
-    in_fill = members[is_fill[members]]
-    blocks = [(in_fill, out_fill)]
-    for kind in ("head", "tail") if chain else ():
-        blocks.append((members[prob.kind[members] == kind], np.flatnonzero((prob.kind == kind) & ~inside)))
-    removed, added, cross = [in_fill, np.full(out_fill.size, -1)], [np.full(in_fill.size, -1), out_fill], []
-    cross = [np.zeros(in_fill.size + out_fill.size)]
-    for old, new in blocks:
-        removed.append(old.repeat(new.size))
-        added.append(np.tile(new, old.size))
-        cross.append((prob.hist[old] @ prob.hist[new].T).ravel())
-    return np.concatenate(removed), np.concatenate(added), np.concatenate(cross)
-
-
-def _improve(
-    prob: _Problem, members: IntArray, score: float, rng: np.random.Generator
-) -> tuple[IntArray, float, int]:
-    """Exchange search from ``members`` (pool-local indices); returns members, score, moves scored."""
+def _improve(prob: Problem, members: IntArray, score: float, rng: np.random.Generator) -> tuple[IntArray, float, int]:
+    """Exchange search from ``members`` (problem-local indices); returns members, score, moves scored."""
     pad = np.zeros(1)
     h_norm = np.r_[np.einsum("ij,ij->i", prob.hist, prob.hist), pad]
     h_p = np.r_[prob.hist @ prob.target_p, pad]
@@ -198,7 +98,7 @@ def _improve(
     sums_pad = np.vstack([prob.sums, np.zeros((1, prob.sums.shape[1]))])
     evaluated = 0
     for _ in range(prob.cfg.swap_passes):
-        r, a, cross = _moves(prob, members, rng)
+        r, a, cross = exchange_moves(prob, members, rng)
         if r.size == 0:
             break
         s_cur = prob.sums[members].sum(axis=0)
@@ -219,15 +119,10 @@ def _improve(
     return members, score, evaluated
 
 
-def _ordered(prob: _Problem, members: IntArray) -> IntArray:
-    """Cycle order: whole micro-trips as drawn, then head, windows, tail."""
-    rank = {"whole": 0, "head": 1, "window": 2, "tail": 3}
-    keys = np.array([rank[k] for k in prob.kind[members]])
-    return members[np.argsort(keys, kind="stable")]
-
-
-def select_pieces(pool: PiecePool, type_name: str, target: FloatArray, cfg: CyclesConfig, type_number: int) -> Selection:
-    """Choose the pieces of ``type_name``'s representative cycle.
+def select_pieces(
+    pool: PiecePool, type_name: str, target: FloatArray, cfg: CyclesConfig, type_number: int
+) -> list[Selection]:
+    """Candidate piece sets for ``type_name``'s representative cycle, best first.
 
     Parameters
     ----------
@@ -242,15 +137,17 @@ def select_pieces(pool: PiecePool, type_name: str, target: FloatArray, cfg: Cycl
 
     Returns
     -------
-    Selection
-        Pool rows in cycle order; ``score`` inf (no pieces) when the type has too little eligible
-        driving for the target duration.
+    list of Selection
+        One per round that found a valid set (pool rows in cycle order), sorted by score; empty
+        when the type has too little eligible driving for the target duration. The caller judges
+        them on their assembled traces (:func:`cycle_trace`), which the pieces' sums only predict.
     """
     prob = _problem(pool, type_name, target, cfg)
     rng = np.random.default_rng([cfg.seed, type_number])
-    best_score, best, evaluated = np.inf, np.zeros(0, dtype=np.int64), 0
+    found: list[tuple[float, IntArray]] = []
+    evaluated = 0
     for _ in range(cfg.rounds):
-        x = _random_sets(prob, rng, cfg.candidates)
+        x = random_sets(prob, rng, cfg.candidates)
         if x.shape[0] == 0:
             break
         scores = prob.score_sets(x)
@@ -261,11 +158,13 @@ def select_pieces(pool: PiecePool, type_name: str, target: FloatArray, cfg: Cycl
         start = x.indices[x.indptr[row] : x.indptr[row + 1]].astype(np.int64)
         members, score, moves = _improve(prob, start, float(scores[row]), rng)
         evaluated += moves
-        if score < best_score:
-            best_score, best = score, members
-    if not np.isfinite(best_score):
-        return Selection(pieces=np.zeros(0, dtype=np.int64), score=float("inf"), evaluated=evaluated)
-    return Selection(pieces=prob.idx[_ordered(prob, best)], score=best_score, evaluated=evaluated)
+        found.append((score, members))
+    found.sort(key=lambda item: item[0])
+    unique: dict[tuple[int, ...], Selection] = {}
+    for score, members in found:
+        pieces = prob.idx[chain_order(prob, members)]
+        unique.setdefault(tuple(sorted(pieces.tolist())), Selection(pieces=pieces, score=score, evaluated=evaluated))
+    return list(unique.values())
 
 
 def cycle_trace(samples: pd.DataFrame, pool: PiecePool, pieces: IntArray) -> pd.DataFrame:

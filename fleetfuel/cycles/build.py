@@ -16,12 +16,13 @@ import pandas as pd
 
 from fleetfuel import schema, segment
 from fleetfuel.cycles.assemble import Selection, cycle_trace, select_pieces
+from fleetfuel.cycles.chains import EXCESS_WEIGHT
 from fleetfuel.cycles.cluster import DutyTypeClusterer, fit_types, predict_types, type_names
 from fleetfuel.cycles.config import CyclesConfig
 from fleetfuel.cycles.labels import label_types
 from fleetfuel.cycles.pieces import PiecePool, build_pool, eligible_microtrips
 from fleetfuel.cycles.safd import safd_difference, safd_of_trace, safd_shape
-from fleetfuel.cycles.stats import TARGET_STATS, floors, normalised_errors
+from fleetfuel.cycles.stats import TARGET_STATS, floors, normalised_errors, with_derived
 from fleetfuel.cycles.weights import type_weights
 from fleetfuel.errors import CycleError
 from fleetfuel.segment.config import KMH_M_S, METRES_PER_KM, SECONDS_PER_MINUTE, SegmentConfig
@@ -113,7 +114,7 @@ def _targets(samples: pd.DataFrame, microtrips: pd.DataFrame, names: list[str], 
         rest = rows.loc[rows["type"].isin(fallback).to_numpy()]
         extra = pd.Series(rest["type"].astype(str).to_numpy(), index=rest[schema.MICROTRIP_ID].astype(str).to_numpy(), name="type")
         stats = pd.concat([stats, segment.group_features(samples, extra, segment_cfg)])
-    return stats.reindex(names)
+    return with_derived(stats.reindex(names))
 
 
 def _acceptance(type_name: str, target: np.ndarray, achieved: np.ndarray, cfg: CyclesConfig) -> pd.DataFrame:
@@ -133,6 +134,22 @@ def _acceptance(type_name: str, target: np.ndarray, achieved: np.ndarray, cfg: C
             "passed": err <= cfg.stat_tolerance,
         }
     )
+
+
+def _judge(
+    samples: pd.DataFrame, pool: PiecePool, option: Selection, target: np.ndarray, type_safd: np.ndarray,
+    cfg: CyclesConfig, segment_cfg: SegmentConfig,
+) -> tuple[int, float, pd.DataFrame, np.ndarray, np.ndarray, float]:
+    """A candidate on its assembled trace: (statistics off goal, score, trace, stats, SAFD, SAFD difference)."""
+    trace = cycle_trace(samples, pool, option.pieces)
+    features = segment.features_of_trace(trace["time_s"], trace["speed_m_s"], trace["grade"], cfg=segment_cfg)
+    achieved = with_derived(features)[list(TARGET_STATS)].to_numpy(dtype=np.float64)
+    err = normalised_errors(achieved, target, cfg)
+    safd = safd_of_trace(trace["time_s"], trace["speed_m_s"], cfg, segment_cfg)
+    diff = safd_difference(type_safd, safd)
+    excess = EXCESS_WEIGHT * np.sum(np.maximum(err - cfg.stat_tolerance, 0.0))
+    score = float(np.sqrt(np.mean(err**2)) + excess + cfg.safd_weight * diff)
+    return int(np.count_nonzero(err > cfg.stat_tolerance)), score, trace, achieved, safd, diff
 
 
 def _composition(type_name: str, pool: PiecePool, selection: Selection) -> pd.DataFrame:
@@ -222,21 +239,20 @@ def build_cycles(
     cycles, selections, safd_type, safd_cycle, safd_diff, accept, parts = {}, {}, {}, {}, {}, [], []
     for number, name in enumerate(names):
         target = targets.loc[name, list(TARGET_STATS)].to_numpy(dtype=np.float64)
-        selection = select_pieces(pool, name, target, cfg, number)
-        selections[name] = selection
-        of_type = (pool.table["type"] == name).to_numpy(dtype=bool, na_value=False)
-        counts = pool.safd[of_type].sum(axis=0)
+        counts = pool.type_safd.get(name, np.zeros(0))
         if counts.sum() > 0:
             safd_type[name] = (counts / counts.sum()).reshape(safd_shape(cfg))
-        if selection.pieces.size == 0:
+        options = select_pieces(pool, name, target, cfg, number)
+        if not options:
+            selections[name] = Selection(pieces=np.zeros(0, dtype=np.int64), score=float("inf"), evaluated=0)
             continue
-        trace = cycle_trace(samples, pool, selection.pieces)
+        judged = [_judge(samples, pool, option, target, safd_type[name], cfg, segment_cfg) for option in options]
+        best = min(range(len(judged)), key=lambda k: (judged[k][0], judged[k][1]))
+        selections[name] = options[best]
+        _, _, trace, achieved, safd_cycle[name], safd_diff[name] = judged[best]
         cycles[name] = trace
-        achieved = segment.features_of_trace(trace["time_s"], trace["speed_m_s"], trace["grade"], cfg=segment_cfg)
-        accept.append(_acceptance(name, target, achieved[list(TARGET_STATS)].to_numpy(dtype=np.float64), cfg))
-        safd_cycle[name] = safd_of_trace(trace["time_s"], trace["speed_m_s"], cfg, segment_cfg)
-        safd_diff[name] = safd_difference(safd_type[name], safd_cycle[name])
-        parts.append(_composition(name, pool, selection))
+        accept.append(_acceptance(name, target, achieved, cfg))
+        parts.append(_composition(name, pool, options[best]))
     acceptance = pd.concat(accept, ignore_index=True) if accept else pd.DataFrame(columns=list(ACCEPTANCE_COLUMNS))
     weights = type_weights(table, names)
     silhouettes = pd.DataFrame(

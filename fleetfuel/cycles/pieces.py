@@ -7,17 +7,25 @@ with every acceleration statistic observable. A micro-trip no longer than
 motorway or rural run that alone outlasts the cycle) is cut at *splice points* into a ``head``
 (its idle and start up to the first cut), ``window`` pieces (cut to cut) and a ``tail`` (last cut
 to the stop). Splice points are cruise samples (:math:`|a| \le a_{mode}`) whose speed is within
-``cfg.splice_tolerance_m_s`` of the type's splice speed (the median moving speed of its long
-micro-trips), at least ``cfg.window_s`` apart; so a head, any windows and a tail of the same
-type join at (nearly) equal speed. The pieces of a micro-trip partition its samples: the pool
-holds every eligible sample once, and the statistics of all pieces of a type add up to the
-type's. A cycle built from pieces stays real driving with at most a few splices, in the spirit
-of the micro-trip method (Tong, Hung & Cheung 1999; from memory) extended to journeys longer than
-the cycle.
+``cfg.splice_tolerance_m_s`` of one of the type's *splice levels*, at least ``cfg.window_s``
+apart. A type has up to ``cfg.splice_levels`` levels, the quantiles :math:`k / (n + 1)` of the
+moving speeds of its long micro-trips (levels closer than twice the tolerance merged), so a
+hairpin climb is cut at a low level and a motorway at a high one. Each cut piece carries an
+*entry* level (that of its first row) and an *exit* level (that of the row after its last);
+whole micro-trips, heads' entries and tails' exits are at rest (level -1). Pieces join where one's
+exit level is the next one's entry level, i.e. at (nearly) equal speed: a cycle is whole
+micro-trips plus at most one chain head -> windows -> tail walking through the levels
+(:mod:`fleetfuel.cycles.assemble`). A cycle built from pieces stays real driving with a few
+splices, in the spirit of the micro-trip method (Tong, Hung & Cheung 1999; from memory) extended
+to journeys longer than the cycle. The pieces of a micro-trip partition its samples.
 
-Each piece has an id (``<microtrip_id>`` for a whole micro-trip, ``<microtrip_id>#<k>`` for cut
-pieces, k from 0), its micro-trip, vehicle, start and end time, and the positions of its first
-and last row in the segmented sample frame, so the assembled cycle can be read back.
+Every piece's statistics come from :func:`fleetfuel.segment.microtrip_features` (whole pieces
+are micro-trips; cut pieces are computed on their rows with their trip neighbours, so that the
+kinematics are those of the full log), turned into additive sums by
+:func:`fleetfuel.cycles.stats.additive_sums`. Each piece has an id (``<microtrip_id>`` for a whole
+micro-trip, ``<microtrip_id>#<k>`` for cut pieces, k from 0), its micro-trip, vehicle, start and
+end time, levels, and the positions of its first and last row in the segmented sample frame, so
+the assembled cycle can be read back.
 """
 
 from __future__ import annotations
@@ -46,6 +54,8 @@ PIECE_COLUMNS: Final = (
     schema.VEHICLE_ID,
     "type",
     "kind",
+    "entry_level",
+    "exit_level",
     "start_utc",
     "end_utc",
     "duration_s",
@@ -53,8 +63,10 @@ PIECE_COLUMNS: Final = (
     "first_row",
     "last_row",
 )
-"""Columns of :attr:`PiecePool.table` (rows: positions in the segmented sample frame)."""
+"""Columns of :attr:`PiecePool.table` (levels -1: at rest; rows: positions in the segmented
+sample frame)."""
 STEP_MATCH: Final = 1e-6  # relative: equal time steps up to float round-off
+REST: Final = -1
 ACCEL_STATS: Final = (
     "accel_share",
     "cruise_share",
@@ -78,8 +90,10 @@ class PiecePool:
         Additive sums of each piece (:func:`fleetfuel.cycles.stats.additive_sums`).
     safd : ndarray, shape (pieces, SAFD cells)
         Time in each SAFD cell. [s]
-    splice_speed_m_s : dict of str to float
-        Splice speed of each type with long micro-trips. [m/s]
+    type_safd : dict of str to ndarray
+        Time in each SAFD cell of all eligible driving of each type. [s]
+    levels_m_s : dict of str to ndarray
+        Splice levels of each type with long micro-trips. [m/s]
     step_s : float
         Time step of the eligible samples (the cycles' time step). [s]
     """
@@ -87,7 +101,8 @@ class PiecePool:
     table: pd.DataFrame
     sums: FloatArray
     safd: FloatArray
-    splice_speed_m_s: dict[str, float]
+    type_safd: dict[str, FloatArray]
+    levels_m_s: dict[str, FloatArray]
     step_s: float
 
 
@@ -148,19 +163,35 @@ def eligible_microtrips(microtrips: pd.DataFrame, samples: pd.DataFrame) -> tupl
     return pd.Series(ok, index=microtrips.index), step_s
 
 
+def _levels(types: npt.NDArray[np.object_], v: FloatArray, n: int, tolerance_m_s: float) -> dict[str, FloatArray]:
+    """Splice levels of each type: quantiles k/(n+1) of its moving speeds, near-equal ones merged."""
+    quantiles = np.arange(1, n + 1) / (n + 1)
+    out = {}
+    for name, speeds in pd.Series(v).groupby(types).quantile(quantiles).groupby(level=0):
+        values = np.sort(speeds.to_numpy(dtype=np.float64))
+        keep = np.r_[True, np.diff(values) > 2 * tolerance_m_s]
+        out[str(name)] = values[keep]
+    return out
+
+
 def _cut_codes(
-    mt: IntArray, t: FloatArray, v: FloatArray, a: FloatArray, long_mt: npt.NDArray[np.bool_],
-    splice: FloatArray, cfg: CyclesConfig, segment_cfg: SegmentConfig,
-) -> IntArray:
-    """Piece number of each row within its micro-trip (0 for whole micro-trips)."""
+    mt: IntArray, t: FloatArray, v: FloatArray, a: FloatArray, levels: FloatArray,
+    cfg: CyclesConfig, segment_cfg: SegmentConfig,
+) -> tuple[IntArray, IntArray]:
+    """(piece number within the micro-trip, splice level of the row or -1) of each row.
+
+    ``levels`` has one row of level speeds per row (NaN-padded) [m/s].
+    """
     first, last = _edges(mt)
     start_idx = np.maximum.accumulate(np.where(first, np.arange(mt.size), 0))
     offset = t - t[start_idx]
+    gap = np.abs(v[:, None] - levels)
+    nearest = np.argmin(np.where(np.isfinite(gap), gap, np.inf), axis=1)
+    close = np.take_along_axis(np.nan_to_num(gap, nan=np.inf), nearest[:, None], axis=1)[:, 0]
     candidate = (
-        long_mt
-        & ~first
+        ~first
         & ~last
-        & (np.abs(v - splice) <= cfg.splice_tolerance_m_s)
+        & (close <= cfg.splice_tolerance_m_s)
         & (np.abs(np.nan_to_num(a, nan=np.inf)) <= segment_cfg.mode_accel_m_s2)
     )
     bucket = np.floor(offset / cfg.window_s).astype(np.int64)
@@ -169,7 +200,48 @@ def _cut_codes(
     cut = np.zeros(mt.size, dtype=np.int64)
     cut[keys] = 1
     total = np.cumsum(cut)
-    return total - total[start_idx]
+    level = np.where(cut > 0, nearest, REST).astype(np.int64)
+    return total - total[start_idx], level
+
+
+def _with_neighbours(rows: IntArray, n: int) -> IntArray:
+    """``rows`` plus the row before and after each (clipped to the frame), sorted, unique."""
+    return np.unique(np.clip(np.concatenate([rows - 1, rows, rows + 1]), 0, n - 1))
+
+
+def _cut_pieces(
+    samples: pd.DataFrame, long_pos: IntArray, mt: IntArray, mt_ids: pd.Index, row_type: npt.NDArray[np.object_],
+    motion: tuple[FloatArray, FloatArray, FloatArray, FloatArray], cfg: CyclesConfig, segment_cfg: SegmentConfig,
+) -> tuple[pd.DataFrame, pd.DataFrame, FloatArray, dict[str, FloatArray]]:
+    """Cut the long micro-trips: (piece rows, their features, SAFD counts, levels per type)."""
+    t, v, a, w = (x[long_pos] for x in motion)
+    moving = v >= segment_cfg.stop_speed_m_s
+    levels = _levels(row_type[moving], v[moving], cfg.splice_levels, cfg.splice_tolerance_m_s)
+    grid = np.full((v.size, cfg.splice_levels), np.nan)
+    for name, values in levels.items():  # one assignment per type
+        grid[np.ix_(row_type == name, np.arange(values.size))] = values
+    number, cut_level = _cut_codes(mt, t, v, a, grid, cfg, segment_cfg)
+    cuts = pd.Series(number).groupby(mt).transform("max").to_numpy()
+    key = pd.Series(mt_ids.to_numpy()[mt]) + "#" + pd.Series(number).map("{:03d}".format)
+    key = key.where(cuts > 0, pd.Series(mt_ids.to_numpy()[mt]))
+    code, ids = pd.factorize(key)
+    first = pd.Series(np.arange(mt.size)).groupby(code).min().to_numpy()
+    last = pd.Series(np.arange(mt.size)).groupby(code).max().to_numpy()
+    num, n_cuts = number[first], cuts[first]
+    entry = cut_level[first]
+    exit_ = np.where(num < n_cuts, cut_level[np.minimum(last + 1, mt.size - 1)], REST)
+    kind = np.where(n_cuts == 0, "whole", np.where(num == 0, "head", np.where(num == n_cuts, "tail", "window")))
+    meta = pd.DataFrame({
+        "piece_id": np.asarray(ids, dtype=object), "mt_code": mt[first], "kind": kind,
+        "entry_level": entry, "exit_level": exit_, "first_row": long_pos[first], "last_row": long_pos[last],
+    })
+    copy = samples.iloc[_with_neighbours(long_pos, len(samples))].copy()
+    column = pd.Series(pd.NA, index=samples.index, dtype="string")
+    column.iloc[long_pos] = key.to_numpy()
+    copy[schema.MICROTRIP_ID] = column.reindex(copy.index)
+    features = segment.microtrip_features(copy, segment_cfg).set_index(schema.MICROTRIP_ID)
+    hist = safd_counts(v, a, w, code.astype(np.int64), len(ids), cfg)
+    return meta, features.reindex(meta["piece_id"]).reset_index(drop=True), hist, levels
 
 
 def build_pool(
@@ -186,7 +258,7 @@ def build_pool(
     samples : DataFrame
         Segmented clean frame (with ``microtrip_id`` and ``trip_id``), sorted by vehicle and time.
     microtrips : DataFrame
-        Micro-trip table with ``type`` and a bool column ``eligible``.
+        Micro-trip feature table with ``type`` and a bool column ``eligible``.
     step_s : float
         Time step of the eligible micro-trips (:func:`eligible_microtrips`). [s]
     cfg, segment_cfg : CyclesConfig, SegmentConfig
@@ -195,61 +267,54 @@ def build_pool(
     -------
     PiecePool
     """
-    chosen = microtrips.loc[microtrips["eligible"].to_numpy(), [schema.MICROTRIP_ID, "type", "duration_s"]]
-    type_of = pd.Series(chosen["type"].to_numpy(), index=chosen[schema.MICROTRIP_ID].to_numpy())
-    long_of = pd.Series(
-        (chosen["duration_s"] > cfg.max_piece_share * cfg.target_duration_s).to_numpy(), index=type_of.index
-    )
-    t, v, a, w = row_motion(samples, segment_cfg)
-    mt_ids = samples[schema.MICROTRIP_ID]
-    keep = mt_ids.isin(type_of.index).to_numpy()
-    pos = np.flatnonzero(keep)
-    mt, mt_index = _codes(mt_ids.iloc[pos].astype(str))
-    row_type = type_of.reindex(mt_index).to_numpy()[mt]
-    long_mt = long_of.reindex(mt_index).to_numpy(dtype=bool)[mt]
-    moving = v[pos] >= segment_cfg.stop_speed_m_s
-    speeds = pd.Series(v[pos][long_mt & moving]).groupby(row_type[long_mt & moving]).median()
-    splice_speed = {str(k): float(x) for k, x in speeds.items()}
-    splice = pd.Series(row_type).map(speeds).to_numpy(dtype=np.float64, na_value=np.nan)
-    number = _cut_codes(mt, t[pos], v[pos], a[pos], long_mt, splice, cfg, segment_cfg)
-    piece_key = pd.Series(mt_index.to_numpy()[mt]) + np.where(long_mt, "#" + pd.Series(number).map("{:03d}".format), "")
-    piece_code, piece_ids = _codes(piece_key)
-    column = pd.Series(pd.NA, index=samples.index, dtype="string")
-    column.iloc[pos] = piece_key.to_numpy()
-    features = segment.microtrip_features(samples.assign(**{schema.MICROTRIP_ID: column}), segment_cfg)
-    features = features.set_index(schema.MICROTRIP_ID).reindex(piece_ids)
-    n_cuts = pd.Series(number).groupby(mt).transform("max").to_numpy()
-    first_row = pd.Series(pos).groupby(piece_code).min().to_numpy()
-    last_row = pd.Series(pos).groupby(piece_code).max().to_numpy()
-    at_first = np.searchsorted(pos, first_row)
-    num = number[at_first]
-    cuts = n_cuts[at_first]
-    kind = np.where(
-        ~long_mt[at_first], "whole", np.where(num == 0, "head", np.where(num == cuts, "tail", "window"))
-    )
-    kind = np.where(long_mt[at_first] & (cuts == 0), "whole", kind)
-    table = pd.DataFrame(
-        {
-            "piece_id": pd.array(np.asarray(piece_ids, dtype=object), dtype="string"),
-            schema.MICROTRIP_ID: pd.array(mt_index.to_numpy()[mt[at_first]], dtype="string"),
-            schema.VEHICLE_ID: samples[schema.VEHICLE_ID].iloc[first_row].astype("string").to_numpy(),
-            "type": pd.array(row_type[at_first], dtype="string"),
-            "kind": kind,
-            "start_utc": samples[schema.TIME_UTC].iloc[first_row].to_numpy(),
-            "end_utc": samples[schema.TIME_UTC].iloc[last_row].to_numpy(),
-            "duration_s": features["duration_s"].to_numpy(dtype=np.float64),
-            "distance_m": features["distance_m"].to_numpy(dtype=np.float64),
-            "first_row": first_row.astype(np.int64),
-            "last_row": last_row.astype(np.int64),
-        }
-    )
+    chosen = microtrips.loc[microtrips["eligible"].to_numpy()].reset_index(drop=True)
+    ids = chosen[schema.MICROTRIP_ID].astype(str)
+    motion = row_motion(samples, segment_cfg)
+    t, v, a, w = motion
+    pos = np.flatnonzero(samples[schema.MICROTRIP_ID].isin(set(ids)).to_numpy())
+    mt, mt_ids = _codes(samples[schema.MICROTRIP_ID].iloc[pos].astype(str))
+    at = pd.Series(np.arange(len(chosen)), index=ids.to_numpy()).reindex(mt_ids).to_numpy()
+    row_type = chosen["type"].astype(str).to_numpy(dtype=object)[at][mt]
+    mt_safd = safd_counts(v[pos], a[pos], w[pos], mt, len(mt_ids), cfg)
+    mt_type = chosen["type"].astype(str).to_numpy(dtype=object)[at]
+    type_safd = {str(k): mt_safd[mt_type == k].sum(axis=0) for k in np.unique(mt_type)}
+    is_long = (chosen["duration_s"].to_numpy() > cfg.max_piece_share * cfg.target_duration_s)[at]
+    first = pd.Series(pos).groupby(mt).min().to_numpy()
+    last = pd.Series(pos).groupby(mt).max().to_numpy()
+    short = np.flatnonzero(~is_long)
+    wholes = pd.DataFrame({
+        "piece_id": mt_ids.to_numpy()[short], "mt_code": short, "kind": "whole", "entry_level": REST,
+        "exit_level": REST, "first_row": first[short], "last_row": last[short],
+    })
+    whole_features = chosen.iloc[at[short]].reset_index(drop=True)
+    on_long = is_long[mt]
+    long_codes, local = np.unique(mt[on_long], return_inverse=True)
+    meta, features, hists, levels = pd.DataFrame(), pd.DataFrame(), np.zeros((0, mt_safd.shape[1])), {}
+    if on_long.any():
+        meta, features, hists, levels = _cut_pieces(
+            samples, pos[on_long], local.astype(np.int64), mt_ids[long_codes], row_type[on_long], motion,
+            cfg, segment_cfg,
+        )
+        meta["mt_code"] = long_codes[meta["mt_code"].to_numpy()]
+    table = pd.concat([wholes, meta], ignore_index=True)
+    all_features = pd.concat([whole_features, features], ignore_index=True)
+    table[schema.MICROTRIP_ID] = pd.array(mt_ids.to_numpy()[table["mt_code"].to_numpy()], dtype="string")
+    table["piece_id"] = table["piece_id"].astype("string")
+    table[schema.VEHICLE_ID] = samples[schema.VEHICLE_ID].iloc[table["first_row"]].astype("string").to_numpy()
+    table["type"] = pd.array(mt_type[table["mt_code"].to_numpy()], dtype="string")
+    table["entry_level"] = table["entry_level"].astype(np.int64)
+    table["exit_level"] = table["exit_level"].astype(np.int64)
+    table["start_utc"] = samples[schema.TIME_UTC].iloc[table["first_row"]].to_numpy()
+    table["end_utc"] = samples[schema.TIME_UTC].iloc[table["last_row"]].to_numpy()
+    table["duration_s"] = all_features["duration_s"].to_numpy(dtype=np.float64)
+    table["distance_m"] = all_features["distance_m"].to_numpy(dtype=np.float64)
     table["start_utc"] = pd.to_datetime(table["start_utc"], utc=True)
     table["end_utc"] = pd.to_datetime(table["end_utc"], utc=True)
-    safd = safd_counts(v[pos], a[pos], w[pos], piece_code, len(piece_ids), cfg)
     return PiecePool(
         table=table[list(PIECE_COLUMNS)],
-        sums=additive_sums(features.reset_index(drop=True)),
-        safd=safd,
-        splice_speed_m_s=splice_speed,
+        sums=additive_sums(all_features),
+        safd=np.vstack([mt_safd[short], hists]),
+        type_safd=type_safd,
+        levels_m_s=levels,
         step_s=step_s,
     )

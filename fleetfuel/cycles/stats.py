@@ -47,11 +47,16 @@ TARGET_STATS: Final = (
     "pke_m_s2",
     "mean_abs_grade",
     "climb_m_per_km",
+    "net_climb_m_per_km",
 )
 """Statistics a representative cycle must match (definitions in :mod:`fleetfuel.segment.features`).
 
-Duration and distance are set by the target duration; the maximum speed is one sample, not a
-property of the distribution, so it is reported but not matched.
+``net_climb_m_per_km`` is derived from two of them (:func:`with_derived`): climb minus descent
+per km, :math:`2\,c - 1000\,\bar{|g|}` [m/km]. A fleet's driving returns to its depots, so a
+type's net climb is near zero, but a cycle joined from pieces may run downhill overall and
+underestimate fuel (climb alone does not see it). Duration and distance are set by the target
+duration; the maximum speed is one sample, not a property of the distribution, so neither is
+matched.
 """
 
 SUM_COLUMNS: Final = (
@@ -75,6 +80,14 @@ SUM_COLUMNS: Final = (
 """Additive sums behind the ratio statistics (units in the comments)."""
 
 
+def with_derived(stats: pd.DataFrame | pd.Series) -> pd.DataFrame | pd.Series:
+    """``stats`` (feature statistics, columns or index) with ``net_climb_m_per_km`` added. [m/km]"""
+    out = stats.copy()
+    net = 2 * stats["climb_m_per_km"] - METRES_PER_KM * stats["mean_abs_grade"]
+    out["net_climb_m_per_km"] = net
+    return out
+
+
 def floors(cfg: CyclesConfig) -> dict[str, float]:
     """Absolute floor of each statistic in :data:`TARGET_STATS` (0: judged relatively only)."""
     out = dict.fromkeys(TARGET_STATS, 0.0)
@@ -83,6 +96,7 @@ def floors(cfg: CyclesConfig) -> dict[str, float]:
     out["stops_per_km"] = cfg.floor_stops_per_km
     out["mean_abs_grade"] = cfg.floor_grade
     out["climb_m_per_km"] = cfg.floor_climb_m_per_km
+    out["net_climb_m_per_km"] = cfg.floor_climb_m_per_km
     return out
 
 
@@ -155,6 +169,7 @@ def stats_from_sums(sums: FloatArray) -> FloatArray:
         "pke_m_s2": _ratio(s["s_pke"], s["d"]),
         "mean_abs_grade": _ratio(s["s_grade"], s["d_grade"]),
         "climb_m_per_km": _ratio(s["s_climb"] * METRES_PER_KM, s["d_grade"]),
+        "net_climb_m_per_km": _ratio((2 * s["s_climb"] - s["s_grade"]) * METRES_PER_KM, s["d_grade"]),
     }
     return np.stack([values[name] for name in TARGET_STATS], axis=-1)
 

@@ -63,10 +63,11 @@ def test_position_spikes_blanked_when_speed_is_reported() -> None:
 
 def test_hand_built_spike_step_and_ceiling() -> None:
     # 1 Hz, 20 m/s cruise; row 10 spikes to 35 m/s (removed); at row 30 the speed steps down by
-    # 12 m/s and stays there (a step, not a spike: kept); row 40 says 300 m/s (above the ceiling).
+    # 18 m/s and stays there (a step, not a spike: no single sample explains it, kept); row 40
+    # says 300 m/s (above the ceiling).
     v = np.full(60, 20.0)
     v[10] = 35.0
-    v[30:] = 8.0
+    v[30:] = 2.0
     v[40] = 300.0
     t = np.arange(60.0)
     spikes = speed_spikes(t, np.where(v > CFG.speed_ceiling_m_s, np.nan, v), CFG)
@@ -75,11 +76,20 @@ def test_hand_built_spike_step_and_ceiling() -> None:
     assert impossible_speed(np.array([-0.1, 0.0, np.nan]), CFG).tolist() == [True, False, False]
 
 
+def test_spike_at_half_hertz() -> None:
+    # a 0.5 Hz logger: +9 m/s for one sample is a gain of 4.5 m/s^2 and back, beyond the 4 m/s^2
+    # a truck or van can gain; a 9 m/s drop over 2 s and back is braking a vehicle can do
+    t = np.arange(0.0, 80.0, 2.0)
+    v = np.full(t.size, 12.0)
+    v[15] += 9.0
+    assert np.flatnonzero(speed_spikes(t, v, CFG)).tolist() == [15]
+
+
 def test_carry_forward_high_rate_log_has_no_spikes() -> None:
     # An OBD export at ~11 rows/s refreshing speed once a second (values carried forward between
-    # refreshes), accelerating at 2 m/s^2: each change looks like 22 m/s^2 row to row, but is not.
+    # refreshes), accelerating at 3 m/s^2: each change looks like 33 m/s^2 row to row, but is not.
     t = np.arange(0.0, 30.0, 0.09)
-    v = 2.0 * np.floor(t)
+    v = 3.0 * np.floor(t)
     assert not speed_spikes(t, v, CFG).any()
 
 

@@ -49,6 +49,18 @@ def test_short_gap_interpolated_long_gap_breaks() -> None:
     assert s[schema.DISTANCE_M].iloc[at_break] == s[schema.DISTANCE_M].iloc[at_break - 1]
 
 
+def test_synthetic_outages_become_breaks() -> None:
+    # synth truth: outages of 2-15 min (logger or coverage loss) start a new stretch right at the
+    # first row after each outage; nothing is interpolated across them
+    route = synth.line_route(60_000.0, limit_kmh=80.0, lights_every_m=3_000.0)
+    spec = synth.DefectSpec(gaps_per_day=150.0, gap_s=(120.0, 600.0))
+    _, frame, injected = synthetic(route, "rigid_18t", seed=7, spec=spec)
+    assert len(injected.gaps) >= 2
+    clean = clean_vehicle(frame, CFG).samples
+    first_after = clean.loc[clean[schema.GAP_BREAK], schema.SOURCE_ROW].tolist()
+    assert first_after == sorted(injected.gaps["next_row"].tolist())
+
+
 def test_grid_is_epoch_aligned() -> None:
     # rows at x.4 s land on whole seconds, whatever the log's first instant
     t = np.arange(0.4, 30.4, 1.0)

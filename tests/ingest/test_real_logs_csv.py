@@ -163,7 +163,7 @@ def test_aircraft_log_read_and_flagged() -> None:
     # gpsbabel avionics reference log: knots and feet; flagged so the clean stage can refuse it
     path = REAL / "gpsbabel" / "aircraft_avionics_log.csv"
     log = read_csv_log(path)
-    assert "aircraft_not_road_vehicle" in log.flags
+    assert "not_road_vehicle_aircraft" in log.flags
     lines = [ln for ln in path.read_text().splitlines() if ln.strip() and not ln.startswith("#")]
     header = [h.strip() for h in lines[0].split(",")]
     first = dict(zip(header, (v.strip() for v in lines[1].split(",")), strict=True))

@@ -1,0 +1,70 @@
+r"""Steepest sustained grade of each route, from the clean frame's smoothed elevation.
+
+Definition: the *sustained grade* at a point of a trip is the mean grade of the next
+:math:`W` metres of road driven, :math:`(z(s + W) - z(s)) / W`, with :math:`s` the distance along
+the trip and :math:`z` the clean stage's smoothed elevation (``elevation_m``, the same profile its
+``grade`` comes from); :math:`W` is ``ForecastConfig.grade_window_m`` (500 m by default). A
+route's *steepest sustained grade* is the largest value over every point of every trip of the
+route whose window ends inside the same trip: climbs only (direction of travel), so a descent
+does not count. Trips shorter than the window, and routes without elevation, give NaN.
+
+Vectorised: the trips are laid end to end on one distance axis with a gap longer than the window
+between them; one ``searchsorted`` finds each window's end and one ``interp`` its elevation.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from fleetfuel import schema
+
+
+def sustained_grades(samples: pd.DataFrame, window_m: float) -> pd.Series:
+    """Steepest sustained uphill grade of each route (definition in the module docstring).
+
+    Parameters
+    ----------
+    samples : DataFrame
+        Segmented clean frame with ``route``, ``trip_id``, ``distance_m`` [m] and ``elevation_m`` [m].
+    window_m : float
+        Road length of the window. [m]
+
+    Returns
+    -------
+    Series
+        Route -> grade, rise over run [1] (NaN: no trip with elevation as long as the window).
+        The input is not modified.
+    """
+    needed = (schema.ROUTE, schema.TRIP_ID, schema.DISTANCE_M, schema.ELEVATION_M)
+    if any(c not in samples.columns for c in needed):
+        return pd.Series(dtype=np.float64, name="steepest_grade")
+    keep = (
+        samples[schema.TRIP_ID].notna().to_numpy()
+        & samples[schema.ROUTE].notna().to_numpy()
+        & np.isfinite(samples[schema.ELEVATION_M].to_numpy(dtype=np.float64, na_value=np.nan))
+        & np.isfinite(samples[schema.DISTANCE_M].to_numpy(dtype=np.float64, na_value=np.nan))
+    )
+    rows = samples.loc[keep, [schema.ROUTE, schema.TRIP_ID, schema.DISTANCE_M, schema.ELEVATION_M]]
+    routes = sorted(samples[schema.ROUTE].dropna().astype(str).unique())
+    out = pd.Series(np.nan, index=pd.Index(routes, name=schema.ROUTE), name="steepest_grade")
+    if rows.empty:
+        return out
+    codes, _ = pd.factorize(rows[schema.TRIP_ID])
+    order = np.argsort(codes, kind="stable")  # rows stay in time order within a trip
+    codes = codes[order]
+    distance = rows[schema.DISTANCE_M].to_numpy(dtype=np.float64)[order]
+    elevation = rows[schema.ELEVATION_M].to_numpy(dtype=np.float64)[order]
+    distance = np.maximum.accumulate(distance - distance.min())  # guard: never backwards
+    spacing = distance.max() + 2 * window_m
+    axis = distance + codes * spacing  # trips end to end, more than a window apart
+    axis = np.maximum.accumulate(axis)
+    end = axis + window_m
+    j = np.minimum(np.searchsorted(axis, end), axis.size - 1)
+    inside = (axis[j] >= end) & (codes[j] == codes)
+    rise = np.interp(end, axis, elevation) - elevation
+    grade = np.where(inside, rise / window_m, np.nan)
+    route = rows[schema.ROUTE].astype(str).to_numpy()[order]
+    found = pd.Series(grade).groupby(route).max()
+    out.loc[found.index] = found.to_numpy()
+    return out
