@@ -75,6 +75,7 @@ def _problem(pool: PiecePool, type_name: str, target: FloatArray, cfg: CyclesCon
     hist_all = pool.type_safd.get(type_name, np.zeros(pool.safd.shape[1]))
     duration = table["duration_s"].to_numpy(dtype=np.float64)
     idx = np.flatnonzero(of_type & (duration <= longest) & (duration > 0))
+    cells = np.flatnonzero(hist_all > 0)  # SAFD cells the type visits: the others hold no piece time
     return Problem(
         idx=idx,
         kind=table["kind"].to_numpy(dtype=str)[idx],
@@ -82,9 +83,9 @@ def _problem(pool: PiecePool, type_name: str, target: FloatArray, cfg: CyclesCon
         exit=table["exit_level"].to_numpy(dtype=np.int64)[idx],
         duration=duration[idx],
         sums=pool.sums[idx],
-        hist=pool.safd[idx],
+        hist=pool.safd[np.ix_(idx, cells)],
         target=target,
-        target_p=hist_all / max(hist_all.sum(), np.finfo(float).tiny),
+        target_p=hist_all[cells] / max(hist_all.sum(), np.finfo(float).tiny),
         cfg=cfg,
     )
 

@@ -27,6 +27,7 @@ FloatArray = npt.NDArray[np.float64]
 IntArray = npt.NDArray[np.int64]
 
 REST: Final = -1
+KINDS: Final = np.array(["head", "tail", "whole", "window"])  # sorted, for searchsorted codes
 CHUNK: Final = 256  # candidates drawn at once (bounds the keys matrix to CHUNK x pieces)
 # The search aims at 80 % of the statistics' goal: the splices and the ends of the pieces move the
 # assembled trace's statistics slightly off the pieces' sums (our choice, no source).
@@ -175,25 +176,30 @@ def exchange_moves(prob: Problem, members: IntArray, rng: np.random.Generator) -
     inside = np.zeros(prob.idx.size, dtype=bool)
     inside[members] = True
 
-    def outside(mask: npt.NDArray[np.bool_]) -> IntArray:
-        found = np.flatnonzero(mask & ~inside)
+    def sample(found: IntArray) -> IntArray:
         return np.sort(rng.choice(found, size=EXCHANGE_SAMPLE, replace=False)) if found.size > EXCHANGE_SAMPLE else found
 
-    in_whole = members[prob.kind[members] == "whole"]
-    out_whole = outside(prob.kind == "whole")
-    chain = members[prob.kind[members] != "whole"]
+    is_whole = prob.kind == "whole"
+    in_whole = members[is_whole[members]]
+    out_whole = sample(np.flatnonzero(is_whole & ~inside))
+    chain = members[~is_whole[members]]
     visited = np.unique(prob.exit[chain][prob.exit[chain] != REST])
     loops = (prob.kind == "window") & (prob.entry == prob.exit)
-    out_loops = outside(loops & np.isin(prob.entry, visited))
+    out_loops = sample(np.flatnonzero(loops & np.isin(prob.entry, visited) & ~inside))
     in_loops = chain[loops[chain]]
     removed = [in_whole, np.full(out_whole.size, -1), in_loops, np.full(out_loops.size, -1)]
     added = [np.full(in_whole.size, -1), out_whole, np.full(in_loops.size, -1), out_loops]
     cross = [np.zeros(in_whole.size + out_whole.size + in_loops.size + out_loops.size)]
     pairs = [(in_whole, out_whole)]
-    key = prob.entry * (prob.exit.max(initial=0) + 2) + prob.exit
-    for piece in chain:
-        same = (prob.kind == prob.kind[piece]) & (key == key[piece])
-        pairs.append((np.array([piece]), outside(same)))
+    # Chain pieces are swapped within their group: same kind, same entry and exit level.
+    span = prob.exit.max(initial=0) + 2
+    group = (np.searchsorted(KINDS, prob.kind) * span + prob.entry + 1) * span + prob.exit + 1
+    found = np.flatnonzero(np.isin(group, group[chain]) & ~inside)
+    found = found[np.argsort(group[found], kind="stable")]
+    lo = np.searchsorted(group[found], group[chain], side="left")
+    hi = np.searchsorted(group[found], group[chain], side="right")
+    for piece, a, b in zip(chain.tolist(), lo.tolist(), hi.tolist(), strict=True):  # a dozen chain pieces
+        pairs.append((np.array([piece]), sample(found[a:b])))
     for old, new in pairs:
         removed.append(old.repeat(new.size))
         added.append(np.tile(new, old.size))

@@ -1,0 +1,215 @@
+"""The forecast stage in one call: :func:`forecast_fleet` -> :class:`~fleetfuel.forecast.result.ForecastResult`."""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Sequence
+from typing import Final
+
+import numpy as np
+import pandas as pd
+
+from fleetfuel import schema
+from fleetfuel.cycles import CycleSet
+from fleetfuel.errors import ConfigError
+from fleetfuel.forecast.annual import annual_figures
+from fleetfuel.forecast.config import ForecastConfig
+from fleetfuel.forecast.energy import RouteEnergy, cycle_runs, energy_from_cycles, energy_from_logs, shift_traces
+from fleetfuel.forecast.feasibility import best_gradeability_pct, check_cell, payload_reason, usable_after_reserve_kwh
+from fleetfuel.forecast.mission import duty_mix_table, mission_table, shift_distances
+from fleetfuel.forecast.ranking import fleet_ranking, route_best, savings
+from fleetfuel.forecast.result import ForecastResult, assumption_list
+from fleetfuel.simulate import SimConfig, SimResult, VehicleSpec
+from fleetfuel.simulate.envelope import Envelope, performance_envelope
+from fleetfuel.units import SECONDS_PER_HOUR
+
+Progress = Callable[[int, int, str], None]
+"""``progress(done, total, label)``: called after each route x spec cell."""
+
+FORECAST_COLUMNS: Final = (
+    schema.ROUTE, "vehicle_class", "spec", "annual_km", "fuel_l_per_100km", "fuel_l_per_year", "kwh_per_year",
+    "co2_kg_per_year", "energy_cost_per_year", "tco_per_year", "feasible", "infeasible_reason",
+    "spec_name", "powertrain", "fuel", "has_cost", "payload_kg", "payload_source", "simulated_on", "cycle_coverage_share",
+    "fuel_kg_per_100km", "kwh_per_100km", "fuel_kg_per_year", "co2_ttw_kg_per_year", "co2_wtw_kg_per_year",
+    "capital_per_year", "maintenance_per_year", "vehicles_in_service", "shortfall_share", "steepest_grade_pct",
+    "startability_pct", "gradeability_pct", "max_payload_kg", "worst_shift_kwh", "usable_after_reserve_kwh",
+    "worst_shift_period", "currency",
+)
+"""Columns of ``route_forecast`` (issue 5's leading columns first; units in the names, money in ``currency``)."""
+
+
+def spec_id(spec: VehicleSpec) -> str:
+    """Identifier of a spec in tables and config: its file stem, else its name."""
+    return spec.source_path.stem if spec.source_path is not None else spec.name
+
+
+def _check_specs(specs: Sequence[VehicleSpec], cfg: ForecastConfig) -> dict[str, VehicleSpec]:
+    by_id: dict[str, VehicleSpec] = {}
+    for spec in specs:
+        key = spec_id(spec)
+        if key in by_id:
+            raise ConfigError(f"spec catalogue: two specs share the id {key!r}")
+        by_id[key] = spec
+    for cls, key in cfg.current_spec.items():
+        if key not in by_id:
+            raise ConfigError(f"forecast.current_spec.{cls}: no spec {key!r} in the catalogue; known: {', '.join(sorted(by_id))}")
+        if by_id[key].vehicle_class != cls:
+            raise ConfigError(f"forecast.current_spec.{cls}: spec {key!r} is a {by_id[key].vehicle_class}, not a {cls}")
+    return by_id
+
+
+def _use_logs(full: bool, mix: pd.DataFrame, cycle_set: CycleSet, driving_h: float) -> bool:
+    """Simulate the route on its own logs: asked to, no cycle covers it, or it is shorter than its cycles."""
+    if full:
+        return True
+    used = [t for t in mix.index[mix["distance_share"] > 0] if t in cycle_set.cycles]
+    if not used:
+        return True
+    cycles_s = sum(float(cycle_set.cycles[t]["time_s"].iloc[-1] - cycle_set.cycles[t]["time_s"].iloc[0]) for t in used)
+    return driving_h * SECONDS_PER_HOUR <= cycles_s
+
+
+class _Cache:
+    """Cycle runs and envelopes per (spec, payload), computed once."""
+
+    def __init__(self, cycle_set: CycleSet, sim_cfg: SimConfig) -> None:
+        self.cycle_set, self.sim_cfg = cycle_set, sim_cfg
+        self.runs: dict[tuple[str, float], tuple[pd.DataFrame, dict[str, SimResult]]] = {}
+        self.envelopes: dict[tuple[str, float], Envelope] = {}
+
+    def run(self, key: str, spec: VehicleSpec, payload: float) -> tuple[pd.DataFrame, dict[str, SimResult]]:
+        if (key, payload) not in self.runs:
+            self.runs[key, payload] = cycle_runs(self.cycle_set.cycles, spec, payload, self.sim_cfg)
+        return self.runs[key, payload]
+
+    def envelope(self, key: str, spec: VehicleSpec, payload: float) -> Envelope:
+        if (key, payload) not in self.envelopes:
+            self.envelopes[key, payload] = performance_envelope(spec, payload)
+        return self.envelopes[key, payload]
+
+
+def _cell(mission: dict[str, object], key: str, spec: VehicleSpec, energy: RouteEnergy | None, envelope: Envelope | None,
+          payload: float, reasons: list[str], cfg: ForecastConfig) -> dict[str, object]:
+    figures = annual_figures(spec, energy, float(mission["annual_km"]), float(mission["vehicles_in_service"]), cfg)
+    nan = float("nan")
+    return {
+        schema.ROUTE: mission[schema.ROUTE], "vehicle_class": mission["vehicle_class"], "spec": key,
+        "annual_km": float(mission["annual_km"]), **figures, "feasible": not reasons, "infeasible_reason": "; ".join(reasons),
+        "spec_name": spec.name, "powertrain": spec.powertrain, "fuel": spec.fuel.name if spec.fuel else "electricity",
+        "has_cost": spec.cost is not None, "payload_kg": payload, "payload_source": mission["payload_source"],
+        "simulated_on": energy.simulated_on if energy else "", "cycle_coverage_share": energy.coverage_share if energy else nan,
+        "vehicles_in_service": float(mission["vehicles_in_service"]),
+        "shortfall_share": energy.shortfall_share if energy else nan, "steepest_grade_pct": mission["steepest_grade_pct"],
+        "startability_pct": envelope.startability_pct if envelope else nan,
+        "gradeability_pct": best_gradeability_pct(envelope) if envelope else nan,
+        "max_payload_kg": spec.max_payload_kg, "worst_shift_kwh": energy.worst_shift_kwh if energy else nan,
+        "usable_after_reserve_kwh": usable_after_reserve_kwh(spec, cfg),
+        "worst_shift_period": energy.worst_shift_period if energy else "", "currency": cfg.currency,
+    }
+
+
+def _operating_points(ranking: pd.DataFrame, cache: _Cache, by_id: dict[str, VehicleSpec]) -> pd.DataFrame:
+    """Engine points of each class's best-ranked combustion spec on the cycles (its default payload)."""
+    parts = []
+    for cls, rows in ranking.sort_values("rank").groupby("vehicle_class", sort=True):
+        combustion = rows.loc[rows["powertrain"] == "combustion"]
+        if combustion.empty:
+            continue
+        key = str(combustion["spec"].iloc[0])
+        spec = by_id[key]
+        _, results = cache.run(key, spec, spec.payload_or_default())
+        for name, run in results.items():
+            parts.append(pd.DataFrame({
+                "vehicle_class": cls, "spec": key, "type": name, "engine_speed_rpm": run.steps.shaft_speed_rpm,
+                "engine_torque_nm": run.steps.shaft_torque_nm, "weight_s": run.weight_s,
+            }))
+    cols = ["vehicle_class", "spec", "type", "engine_speed_rpm", "engine_torque_nm", "weight_s"]
+    return pd.concat(parts, ignore_index=True)[cols] if parts else pd.DataFrame(columns=cols)
+
+
+def forecast_fleet(
+    samples: pd.DataFrame,
+    routes: pd.DataFrame,
+    cycle_set: CycleSet,
+    specs: Sequence[VehicleSpec],
+    cfg: ForecastConfig | None = None,
+    *,
+    full: bool = False,
+    sim_cfg: SimConfig | None = None,
+    account: pd.DataFrame | None = None,
+    progress: Progress | None = None,
+    catalogue: str = "bundled models/",
+) -> ForecastResult:
+    """Forecast every route x competing spec; rank per class; best per route; savings.
+
+    Parameters
+    ----------
+    samples : DataFrame
+        Segmented clean frame with routes (:func:`fleetfuel.segment.assign_routes`).
+    routes : DataFrame
+        Its route table.
+    cycle_set : CycleSet
+        The cycles stage's result on those samples (:func:`fleetfuel.cycles.build_cycles`).
+    specs : sequence of VehicleSpec
+        Candidate specs (:func:`fleetfuel.simulate.load_catalogue`); a route competes the specs
+        of its vehicle class.
+    cfg : ForecastConfig, optional
+    full : bool
+        Simulate every route on its own logs instead of the representative cycles.
+    sim_cfg : SimConfig, optional
+    account : DataFrame, optional
+        The data-quality account, carried into the result for the report.
+    progress : callable, optional
+        ``progress(done, total, label)`` after each cell.
+    catalogue : str
+        Where the specs came from (shown among the assumptions).
+
+    Returns
+    -------
+    ForecastResult
+
+    Raises
+    ------
+    ConfigError
+        Unclassified vehicles, unknown current spec, missing price, currency mismatch.
+    """
+    cfg = cfg or ForecastConfig()
+    sim_cfg = sim_cfg or SimConfig()
+    by_id = _check_specs(specs, cfg)
+    labels = cycle_set.types.set_index("type")["label"]
+    missions = mission_table(routes, cycle_set.microtrips, samples, cycle_set.weights, labels, cfg)
+    shifts = shift_distances(cycle_set.microtrips)
+    weights = cycle_set.weights.loc[cycle_set.weights["level"] == "route"]
+    cache = _Cache(cycle_set, sim_cfg)
+    jobs = [(m, k, s) for m in missions.to_dict("records") for k, s in by_id.items() if s.vehicle_class == m["vehicle_class"]]
+    rows, traces = [], {}
+    for done, (mission, key, spec) in enumerate(jobs, start=1):
+        route = str(mission[schema.ROUTE])
+        mix = weights.loc[weights["key"] == route].set_index("type")[["distance_share", "time_share"]]
+        payload = float(mission["payload_kg"]) if np.isfinite(mission["payload_kg"]) else spec.body.payload_kg
+        reason = payload_reason(spec, payload)
+        energy = envelope = None
+        reasons = [reason] if reason else []
+        if not reason:
+            if _use_logs(full, mix, cycle_set, float(mission["driving_h"])):
+                if route not in traces:
+                    traces[route] = shift_traces(samples, route)
+                energy = energy_from_logs(traces[route], spec, payload, sim_cfg)
+            else:
+                runs, _ = cache.run(key, spec, payload)
+                energy = energy_from_cycles(runs, mix, shifts.loc[shifts[schema.ROUTE] == route], spec)
+            envelope = cache.envelope(key, spec, payload)
+            reasons = check_cell(spec, energy, envelope, float(mission["steepest_grade"]), cfg)
+        rows.append(_cell(mission, key, spec, energy, envelope, payload, reasons, cfg))
+        if progress is not None:
+            progress(done, len(jobs), f"{route} x {key}")
+    table = pd.DataFrame(rows, columns=list(FORECAST_COLUMNS))
+    table = table.sort_values(["vehicle_class", schema.ROUTE, "spec"], kind="stable").reset_index(drop=True)
+    ranking = fleet_ranking(table)
+    best = route_best(table, missions)
+    return ForecastResult(
+        route_forecast=table, fleet_ranking=ranking, route_best=best, savings=savings(ranking, best, cfg.current_spec),
+        missions=missions, duty_mix=duty_mix_table(cycle_set.weights, labels, missions),
+        operating_points=_operating_points(ranking, cache, by_id),
+        assumptions=assumption_list(cfg, missions, full, catalogue), cycles=cycle_set, account=account,
+        routes=routes, config=cfg, currency=cfg.currency,
+    )
