@@ -48,6 +48,7 @@ def _cmd_inspect(args: argparse.Namespace) -> int:
 def _add_demo(sub: argparse._SubParsersAction) -> None:
     p = sub.add_parser("demo", help="run fleetfuel on the bundled sample fleet into ./fleetfuel-demo/")
     p.add_argument("--out", default="fleetfuel-demo", help="output folder (default: ./fleetfuel-demo)")
+    p.add_argument("--quiet", action="store_true", help="no progress bar")
     p.set_defaults(func=_cmd_demo)
 
 
@@ -55,10 +56,15 @@ def _cmd_demo(args: argparse.Namespace) -> int:
     from pathlib import Path
 
     from fleetfuel import demo
+    from fleetfuel.report.progress import ProgressBar
 
-    written = demo.run_demo(Path(args.out))
+    with ProgressBar(label="demo", quiet=args.quiet) as bar:
+        written = demo.run_demo(Path(args.out), progress=bar.update)
     for path in written:
         print(f"wrote {path}")
+    report = next((p for p in written if p.name == demo.REPORT_FILE), None)
+    if report is not None:
+        print(f"report: {report.resolve()}")
     return EXIT_OK
 
 
@@ -110,6 +116,83 @@ def _cmd_simulate(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
+def _add_cycles(sub: argparse._SubParsersAction) -> None:
+    p = sub.add_parser("cycles", help="duty-cycle types, a validated representative cycle each, and route weights")
+    p.add_argument("paths", nargs="+", help="log files, folders (searched recursively) or globs")
+    p.add_argument("--out", required=True, help="output folder (cycle CSVs, tables, summary.json, plots)")
+    p.add_argument("--json", action="store_true", help="print the summary as JSON")
+    p.add_argument("--profile", help="force an ingest profile: a bundled NAME or a PATH to a TOML file")
+    p.add_argument("--routes", help="routes file (CSV or TOML) mapping vehicles and times to routes")
+    p.add_argument("--target-min", type=float, help="duration of each cycle [min] (default 20)")
+    p.add_argument("--min-types", type=int, help="fewest duty-cycle types to try (default 2)")
+    p.add_argument("--max-types", type=int, help="most duty-cycle types to try (default 8)")
+    p.add_argument("--seed", type=int, help="seed of every random draw (default 0)")
+    p.add_argument("--spec", help="reference spec of the fuel check: a models/ file stem or a TOML path")
+    p.add_argument("--holdout-day", help="day held out for the prediction check: last (default), none or YYYY-MM-DD")
+    p.add_argument("--no-plots", action="store_true", help="skip the PNG plots")
+    p.set_defaults(func=_cmd_cycles)
+
+
+def _cmd_cycles(args: argparse.Namespace) -> int:
+    import dataclasses
+    import json
+    from pathlib import Path
+
+    from fleetfuel import pipeline
+    from fleetfuel.cycles import CyclesConfig
+    from fleetfuel.report.cycle_outputs import cycles_summary, cycles_text, write_cycle_outputs
+
+    flags = {"target_duration_s": None if args.target_min is None else args.target_min * 60.0,
+             "min_types": args.min_types, "max_types": args.max_types, "seed": args.seed,
+             "reference_spec": args.spec, "holdout_day": args.holdout_day}
+    cfg = dataclasses.replace(CyclesConfig(), **{k: v for k, v in flags.items() if v is not None})
+    result = pipeline.cycles_paths(args.paths, cycles_cfg=cfg, profile=args.profile, routes_file=args.routes)
+    parts = (result.cycles, result.routes, result.fuel_check, result.holdout, result.reference_spec, result.unit)
+    write_cycle_outputs(Path(args.out), *parts, cfg, plots=not args.no_plots)
+    print(json.dumps(cycles_summary(*parts), indent=2) if args.json else cycles_text(*parts, out=args.out))
+    for failure in result.failures:
+        print(f"fleetfuel: {failure.path}: {failure.error}", file=sys.stderr)
+    return EXIT_OK
+
+
+def _add_forecast(sub: argparse._SubParsersAction) -> None:
+    p = sub.add_parser("forecast", help="per-route fuel, energy, cost and CO2 of candidate specs; rank them")
+    p.add_argument("paths", nargs="+", help="log files, folders (searched recursively) or globs")
+    p.add_argument("--out", required=True, help="output folder (tables, workbook, plots, report.html)")
+    p.add_argument("--work", help="folder for intermediate data (default: a hidden .work folder inside --out)")
+    p.add_argument("--config", help="run configuration TOML ([forecast] prices, payloads, current specs ...)")
+    p.add_argument("--full", action="store_true", help="simulate every route on its own logs, not on the cycles")
+    p.add_argument("--routes", help="routes file (CSV or TOML): vehicles and times -> routes, payload, planned km")
+    p.add_argument("--profile", help="force an ingest profile: a bundled NAME or a PATH to a TOML file")
+    p.add_argument("--quiet", action="store_true", help="no progress bar")
+    p.set_defaults(func=_cmd_forecast)
+
+
+def _cmd_forecast(args: argparse.Namespace) -> int:
+    from pathlib import Path
+
+    from fleetfuel import pipeline
+    from fleetfuel.config import load_run_config
+    from fleetfuel.report.outputs import write_outputs
+    from fleetfuel.report.progress import ProgressBar
+
+    cfg = load_run_config(Path(args.config) if args.config else None)
+    out = Path(args.out)
+    work = Path(args.work) if args.work else out / ".work"
+    with ProgressBar(label="forecast", quiet=args.quiet) as bar:
+        result = pipeline.forecast_paths(args.paths, cfg, full=args.full, profile=args.profile,
+                                         routes_file=args.routes, work_dir=work, progress=bar.update)
+        written = write_outputs(result, out, work, on_progress=bar.update)
+    for path, error in result.failures:
+        print(f"fleetfuel: {path}: {error}", file=sys.stderr)
+    for row in result.fleet_ranking.loc[result.fleet_ranking["rank"] == 1].itertuples(index=False):
+        print(f"{row.vehicle_class}: best {row.spec} by {row.ranked_by} ({getattr(row, row.ranked_by):,.0f} "
+              f"{result.currency}/year)")
+    for path in written:
+        print(f"wrote {path}")
+    return EXIT_OK
+
+
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="fleetfuel",
@@ -117,7 +200,7 @@ def build_parser() -> argparse.ArgumentParser:
     )
     parser.add_argument("--version", action="version", version=f"fleetfuel {__version__}")
     sub = parser.add_subparsers(dest="verb", metavar="VERB")
-    for add in (_add_inspect, _add_demo, _add_envelope, _add_simulate):
+    for add in (_add_inspect, _add_demo, _add_envelope, _add_simulate, _add_cycles, _add_forecast):
         add(sub)
     return parser
 

@@ -19,6 +19,7 @@ from typing import Any, TypeVar
 
 from fleetfuel.clean.config import CleanConfig
 from fleetfuel.errors import ConfigError
+from fleetfuel.forecast.config import ForecastConfig
 from fleetfuel.ingest.config import IngestConfig
 from fleetfuel.segment.config import SegmentConfig
 from fleetfuel.simulate.config import SimConfig
@@ -34,6 +35,7 @@ class RunConfig:
     clean: CleanConfig = field(default_factory=CleanConfig)
     segment: SegmentConfig = field(default_factory=SegmentConfig)
     simulate: SimConfig = field(default_factory=SimConfig)
+    forecast: ForecastConfig = field(default_factory=ForecastConfig)
 
 
 def _coerce(value: Any, annotation: Any, where: str) -> Any:

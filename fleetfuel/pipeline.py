@@ -9,6 +9,7 @@ import dataclasses
 from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import pandas as pd
 
@@ -136,7 +137,8 @@ def cycles_paths(
     cycles_cfg = cycles_cfg or getattr(cfg, "cycles", None) or cycles.CyclesConfig()
     inspected = inspect_paths(paths, cfg, profile=profile)
     if inspected.samples.empty:
-        raise CycleError(f"too little driving to form cycles: no usable samples in {', '.join(map(str, paths))}")
+        why = f" ({inspected.failures[0].path}: {inspected.failures[0].error})" if inspected.failures else ""
+        raise CycleError(f"too little driving to form cycles: no usable samples in {', '.join(map(str, paths))}{why}")
     samples = segment.split_microtrips(inspected.samples, cfg.segment)
     samples, routes = segment.assign_routes(samples, None, cfg.segment, routes_file)
     features = segment.microtrip_features(samples, cfg.segment)
@@ -157,3 +159,168 @@ def cycles_paths(
         reference_spec=spec_name,
         unit=unit,
     )
+
+
+
+if TYPE_CHECKING:  # the forecast stage is imported when its job runs (keeps the other verbs fast)
+    from fleetfuel.forecast import ForecastResult, Progress
+
+WORK_TABLES = ("routes", "missions", "route_forecast")
+"""Intermediate tables the forecast job leaves in the work folder (Parquet), besides micro-trips and cycles."""
+FORECAST_STAGES = ("reading and cleaning logs", "trips, routes and micro-trips", "duty types and cycles")
+
+
+@dataclass(frozen=True, slots=True)
+class ForecastInputs:
+    """What the forecast stage reads: the earlier stages' results for a set of paths.
+
+    Attributes
+    ----------
+    samples : DataFrame
+        Segmented clean frame with routes.
+    account : DataFrame
+        Per-file row account.
+    failures : tuple of FileFailure
+    routes : DataFrame
+        Route table (:data:`fleetfuel.segment.ROUTE_TABLE_COLUMNS`).
+    microtrips : DataFrame
+        Micro-trip feature table (typed in ``cycles.microtrips`` when there are cycles).
+    cycles : CycleSet or None
+        Duty types and cycles; None when there was too little driving to form them.
+    """
+
+    samples: pd.DataFrame
+    account: pd.DataFrame
+    failures: tuple[FileFailure, ...]
+    routes: pd.DataFrame
+    microtrips: pd.DataFrame
+    cycles: cycles.CycleSet | None
+
+
+def forecast_inputs(
+    paths: Sequence[str | Path],
+    cfg: RunConfig | None = None,
+    *,
+    profile: str | None = None,
+    routes_file: str | Path | None = None,
+    progress: Progress | None = None,
+) -> ForecastInputs:
+    """Read, clean and segment the logs, assign routes and build the duty types and cycles.
+
+    Raises
+    ------
+    InputDataError
+        No usable samples in any input file.
+    """
+    from fleetfuel.errors import CycleError, InputDataError
+
+    cfg = cfg or RunConfig()
+    cycles_cfg = getattr(cfg, "cycles", None) or cycles.CyclesConfig()
+
+    def step(done: int) -> None:
+        if progress is not None:
+            progress(done, len(FORECAST_STAGES), FORECAST_STAGES[min(done, len(FORECAST_STAGES) - 1)])
+
+    step(0)
+    inspected = inspect_paths(paths, cfg, profile=profile)
+    if inspected.samples.empty:
+        raise InputDataError(f"no usable samples in {', '.join(map(str, paths))}: every file failed or was empty")
+    step(1)
+    samples = segment.split_microtrips(inspected.samples, cfg.segment)
+    samples, routes = segment.assign_routes(samples, None, cfg.segment, routes_file)
+    features = segment.microtrip_features(samples, cfg.segment)
+    step(2)
+    try:
+        built: cycles.CycleSet | None = cycles.build_cycles(samples, features, cycles_cfg, cfg.segment)
+    except CycleError:  # too little driving for duty types: every route is simulated on its own logs
+        built = None
+    return ForecastInputs(samples=samples, account=inspected.account, failures=inspected.failures, routes=routes,
+                          microtrips=features, cycles=built)
+
+
+def _write_work(work_dir: Path, result: ForecastResult, microtrips: pd.DataFrame) -> None:
+    """Intermediate data of a forecast run in ``work_dir`` (Parquet, atomic): tables, micro-trips, cycles."""
+    import io
+
+    from fleetfuel.report.files import write_bytes_atomic
+
+    def put(name: str, frame: pd.DataFrame) -> None:
+        buffer = io.BytesIO()
+        frame.to_parquet(buffer, index=False)
+        write_bytes_atomic(work_dir / f"{name}.parquet", buffer.getvalue())
+
+    for name in WORK_TABLES:
+        put(name, getattr(result, name))
+    put("microtrips", microtrips)
+    for name, trace in (result.cycles.cycles if result.cycles is not None else {}).items():
+        put(f"cycle_{name}", trace)
+
+
+def run_forecast(
+    inputs: ForecastInputs,
+    cfg: RunConfig | None = None,
+    *,
+    full: bool = False,
+    work_dir: str | Path | None = None,
+    progress: Progress | None = None,
+) -> ForecastResult:
+    """The forecast stage on prepared inputs (:func:`forecast_inputs`), with the catalogue of ``cfg.forecast``."""
+    from fleetfuel import forecast
+    from fleetfuel.resources import data_dir
+    from fleetfuel.simulate import load_catalogue
+
+    cfg = cfg or RunConfig()
+    catalogue = cfg.forecast.catalogue
+    result = forecast.forecast_fleet(
+        inputs.samples, inputs.routes, inputs.cycles, load_catalogue(catalogue), cfg.forecast,
+        microtrips=inputs.microtrips, full=full, sim_cfg=cfg.simulate, account=inputs.account, progress=progress,
+        catalogue=str(catalogue) if catalogue else str(data_dir("models")),
+    )
+    result = dataclasses.replace(result, failures=tuple((str(f.path), str(f.error)) for f in inputs.failures))
+    if work_dir is not None:
+        _write_work(Path(work_dir), result, inputs.microtrips if inputs.cycles is None else inputs.cycles.microtrips)
+    return result
+
+
+def forecast_paths(
+    paths: Sequence[str | Path],
+    cfg: RunConfig | None = None,
+    *,
+    full: bool = False,
+    profile: str | None = None,
+    routes_file: str | Path | None = None,
+    work_dir: str | Path | None = None,
+    progress: Progress | None = None,
+) -> ForecastResult:
+    """The main job: read, clean, segment, cluster and forecast every route x competing spec.
+
+    Parameters
+    ----------
+    paths : sequence of path
+        Log files, folders (recursive) or globs.
+    cfg : RunConfig, optional
+        Stage configs; ``cfg.forecast`` holds prices, payloads, classes, current specs, catalogue.
+    full : bool
+        Simulate every route on its own logs instead of the representative cycles.
+    profile : str, optional
+        Force an ingest profile.
+    routes_file : path, optional
+        Routes file (vehicle and time -> route, payload, planned annual km).
+    work_dir : path, optional
+        Folder for intermediate data (route table, missions, micro-trips, cycles as Parquet).
+    progress : callable, optional
+        ``progress(done, total, note)``, e.g. :meth:`fleetfuel.report.progress.ProgressBar.update`.
+
+    Returns
+    -------
+    fleetfuel.forecast.ForecastResult
+
+    Raises
+    ------
+    InputDataError
+        No usable samples in any input file.
+    ConfigError
+        Bad forecast settings (unclassified vehicles, unknown current spec, ...).
+    """
+    inputs = forecast_inputs(paths, cfg, profile=profile, routes_file=routes_file, progress=progress)
+    return run_forecast(inputs, cfg, full=full, work_dir=work_dir, progress=progress)

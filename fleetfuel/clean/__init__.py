@@ -16,6 +16,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+import numpy as np
 import pandas as pd
 
 from fleetfuel import schema
@@ -104,6 +105,25 @@ def _reader_dropped(batch: LogBatch) -> pd.DataFrame:
     return pd.concat(parts, ignore_index=True).astype({"reason": "string"}) if parts else _empty_dropped()
 
 
+def _vehicle_parts(rows: pd.DataFrame) -> list[pd.DataFrame]:
+    """Rows of each vehicle (in row order), vehicles sorted by id, missing id last.
+
+    The same partition as ``rows.groupby(vehicle_id, sort=True, dropna=False)``; when each
+    vehicle's rows are one contiguous block (files hold one vehicle, or are sorted by vehicle)
+    the parts are slices, without a copy of the whole frame.
+    """
+    if rows.empty:
+        return []
+    codes, uniques = pd.factorize(rows[schema.VEHICLE_ID], sort=True, use_na_sentinel=True)
+    codes = np.where(codes < 0, len(uniques), codes)  # missing ids form the last group
+    starts = np.flatnonzero(np.r_[True, codes[1:] != codes[:-1]])
+    if starts.size != np.unique(codes).size:  # some vehicle's rows are not contiguous
+        return [part for _, part in rows.groupby(schema.VEHICLE_ID, sort=True, dropna=False)]
+    stops = np.r_[starts[1:], codes.size]
+    order = np.argsort(codes[starts], kind="stable")
+    return [rows.iloc[starts[k] : stops[k]] for k in order]
+
+
 def clean_batch(batch: LogBatch, cfg: CleanConfig | None = None) -> CleanResult:
     """Clean every file of a batch and account for every row.
 
@@ -122,9 +142,7 @@ def clean_batch(batch: LogBatch, cfg: CleanConfig | None = None) -> CleanResult:
     cfg = cfg or CleanConfig()
     frames = [f.samples for f in batch.files if len(f.samples)]
     rows = pd.concat(frames, ignore_index=True) if frames else empty_raw_frame()
-    cleaned: list[VehicleClean] = [
-        clean_vehicle(part, cfg) for _, part in rows.groupby(schema.VEHICLE_ID, sort=True, dropna=False)
-    ]
+    cleaned: list[VehicleClean] = [clean_vehicle(part, cfg) for part in _vehicle_parts(rows)]
     samples = [c.samples for c in cleaned if len(c.samples)]
     clean_dropped = [c.dropped for c in cleaned if len(c.dropped)]
     summaries = [c.files for c in cleaned if len(c.files)]

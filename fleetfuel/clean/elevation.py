@@ -51,24 +51,17 @@ Tukey, J. W. (1977). Exploratory Data Analysis. Addison-Wesley (running medians)
 
 from __future__ import annotations
 
-from typing import Final, NamedTuple
+from typing import NamedTuple
 
 import numpy as np
 import numpy.typing as npt
-from scipy import linalg, ndimage
+from scipy import ndimage
 
 from fleetfuel.clean.config import CleanConfig
+from fleetfuel.clean.trendfilter import dual_solution
 
 FloatArray = npt.NDArray[np.float64]
 BoolArray = npt.NDArray[np.bool_]
-
-# Interior-point settings of Kim et al. (2009), their reference implementation's values.
-_ALPHA: Final = 0.01  # backtracking sufficient-decrease parameter
-_BETA: Final = 0.5  # backtracking step shrink
-_MU: Final = 2.0  # barrier update factor
-_MAX_ITER: Final = 80
-_MAX_LINE_SEARCH: Final = 40
-_REL_GAP: Final = 1e-7  # stop when the duality gap is this small relative to the objective
 
 
 class GradeProfile(NamedTuple):
@@ -92,27 +85,6 @@ class GradeProfile(NamedTuple):
     climb_m: float
 
 
-def _second_difference(x: FloatArray) -> FloatArray:
-    return x[:-2] - 2 * x[1:-1] + x[2:]
-
-
-def _second_difference_t(v: FloatArray) -> FloatArray:
-    out = np.zeros(v.size + 2)
-    out[:-2] += v
-    out[1:-1] -= 2 * v
-    out[2:] += v
-    return out
-
-
-def _ddt_banded(m: int) -> FloatArray:
-    """D D^T of the second-difference operator, upper banded storage (diagonals 6, -4, 1)."""
-    ab = np.zeros((3, m))
-    ab[2] = 6.0
-    ab[1, 1:] = -4.0
-    ab[0, 2:] = 1.0
-    return ab
-
-
 def trend_filter(y: npt.ArrayLike, lam: float) -> FloatArray:
     r"""l1 trend filtering: :math:`\min_x \tfrac12\|y - x\|^2 + \lambda \|D x\|_1`, D the second difference.
 
@@ -132,58 +104,14 @@ def trend_filter(y: npt.ArrayLike, lam: float) -> FloatArray:
         The piecewise-linear fit.
     """
     y = np.asarray(y, dtype=np.float64)
-    m = y.size - 2
-    if m < 1 or lam <= 0:
+    if y.size < 3 or lam <= 0:
         return y.copy()
-    dy = _second_difference(y)
-    ddt = _ddt_banded(m)
-    ddt_chol = linalg.cholesky_banded(ddt)
-    z = np.zeros(m)
-    mu1 = np.ones(m)
-    mu2 = np.ones(m)
-    f1, f2 = z - lam, -z - lam
-    t = 1e-10
-    step = np.inf
-    for _ in range(_MAX_ITER):  # Newton iterations (tens), each vectorised over the whole profile
-        dtz = _second_difference_t(z)
-        ddtz = _second_difference(dtz)
-        w = dy - (mu1 - mu2)
-        pobj = min(
-            0.5 * w @ linalg.cho_solve_banded((ddt_chol, False), w) + lam * np.sum(mu1 + mu2),
-            0.5 * dtz @ dtz + lam * np.sum(np.abs(dy - ddtz)),
-        )
-        dobj = -0.5 * dtz @ dtz + dy @ z
-        gap = pobj - dobj
-        if gap <= _REL_GAP * max(1.0, abs(pobj)):
-            break
-        if step >= 0.2:
-            t = max(2 * m * _MU / gap, 1.2 * t)
-        inv_t = 1.0 / t
-        res_dual = ddtz - w
-        newton = ddt.copy()
-        newton[2] -= mu1 / f1 + mu2 / f2
-        dz = linalg.solveh_banded(newton, -ddtz + dy + inv_t / f1 - inv_t / f2)
-        dmu1 = -(mu1 + (inv_t + dz * mu1) / f1)
-        dmu2 = -(mu2 + (inv_t - dz * mu2) / f2)
-        residual = np.sqrt(res_dual @ res_dual + np.sum((mu1 * f1 + inv_t) ** 2) + np.sum((mu2 * f2 + inv_t) ** 2))
-        step = 1.0
-        for mu_, dmu in ((mu1, dmu1), (mu2, dmu2)):
-            neg = dmu < 0
-            if neg.any():
-                step = min(step, 0.99 * float(np.min(-mu_[neg] / dmu[neg])))
-        for _ in range(_MAX_LINE_SEARCH):
-            nz, nmu1, nmu2 = z + step * dz, mu1 + step * dmu1, mu2 + step * dmu2
-            nf1, nf2 = nz - lam, -nz - lam
-            if max(nf1.max(), nf2.max()) < 0:
-                nres = _second_difference(_second_difference_t(nz)) - dy + nmu1 - nmu2
-                new_residual = np.sqrt(
-                    nres @ nres + np.sum((nmu1 * nf1 + inv_t) ** 2) + np.sum((nmu2 * nf2 + inv_t) ** 2)
-                )
-                if new_residual <= (1 - _ALPHA * step) * residual:
-                    break
-            step *= _BETA
-        z, mu1, mu2, f1, f2 = nz, nmu1, nmu2, nf1, nf2
-    return y - _second_difference_t(z)
+    z = dual_solution(np.ascontiguousarray(y), float(lam))
+    fit = y.copy()
+    fit[:-2] -= z
+    fit[1:-1] += 2 * z
+    fit[2:] -= z
+    return fit
 
 
 def _odd(n: float) -> int:

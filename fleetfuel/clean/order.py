@@ -81,11 +81,15 @@ def duplicate_reasons(samples: pd.DataFrame) -> pd.Series:
     reason = pd.Series(pd.NA, index=samples.index, dtype="string")
     if samples.empty:
         return reason
-    keyed = samples[value_columns(samples)].copy()
-    keyed[schema.TIME_UTC] = time_ns(samples)
-    # pandas' duplicated() treats NaN == NaN, which is what an exact repeat means here.
-    exact = keyed.duplicated(keep="first").to_numpy()
-    same_time = keyed[schema.TIME_UTC].duplicated(keep="first").to_numpy()
+    times = pd.Series(time_ns(samples))
+    same_time = times.duplicated(keep="first").to_numpy()
+    exact = np.zeros(len(samples), dtype=bool)
+    shared = times.duplicated(keep=False).to_numpy()  # only rows sharing an instant can repeat a row
+    if shared.any():
+        keyed = samples.loc[shared, value_columns(samples)].copy()
+        keyed[schema.TIME_UTC] = times.to_numpy()[shared]
+        # pandas' duplicated() treats NaN == NaN, which is what an exact repeat means here.
+        exact[shared] = keyed.duplicated(keep="first").to_numpy()
     reason[exact] = schema.DROP_DUPLICATE_ROW
     reason[same_time & ~exact] = schema.DROP_DUPLICATE_TIME
     return reason

@@ -310,9 +310,20 @@ def position_outliers(
         return PositionOutliers(spike_out, step_out)
     t, lat, lon = t_all[have], lat_all[have], lon_all[have]
     jump_speed = cfg.position_jump_factor * cfg.speed_ceiling_m_s
+    # Distances between consecutive fixes, once: every pass judges mostly the same neighbours.
+    next_m = geodesic_distance_m(lat[:-1], lon[:-1], lat[1:], lon[1:])
+
+    def distance(a: IntArray, b: IntArray) -> FloatArray:
+        out = np.empty(a.size)
+        adjacent = (b - a) == 1
+        out[adjacent] = next_m[a[adjacent]]
+        other = ~adjacent
+        if other.any():
+            out[other] = geodesic_distance_m(lat[a[other]], lon[a[other]], lat[b[other]], lon[b[other]])
+        return out
 
     def agree(a: IntArray, b: IntArray) -> BoolArray:
-        dist = geodesic_distance_m(lat[a], lon[a], lat[b], lon[b])
+        dist = distance(a, b)
         dt = np.abs(t[b] - t[a])
         return (dist <= jump_speed * dt + cfg.position_noise_m) | (dt > cfg.gap_break_s)
 

@@ -173,10 +173,10 @@ def resample(
                 grid[bin_pos] = np.where(cnt > 0, tot / np.maximum(cnt, 1), np.nan)
             data[name] = fill_within_segments(grid, grid_seg, grid_k, max_gap_steps)
         else:  # strings and anything else: the first row of the bin, carried into interpolated instants
-            data[name] = col.iloc[first_row].to_numpy()[owner]
+            data[name] = col.array.take(first_row[owner])  # keeps the column's own dtype
     out = pd.DataFrame(data)
     for name in columns:
-        if name != schema.TIME_UTC:
+        if name != schema.TIME_UTC and out[name].dtype != samples[name].dtype:
             out[name] = out[name].astype(samples[name].dtype)
     interpolated = np.ones(grid_size, dtype=bool)
     interpolated[bin_pos] = False

@@ -90,12 +90,19 @@ def _prepare(samples: pd.DataFrame) -> pd.DataFrame:
         raise ValueError(f"clean_vehicle: expected one vehicle, found {len(ids)} ({list(ids[:3])} ...)")
     times = time_ns(samples)
     nat = samples[schema.TIME_UTC].isna().to_numpy()
-    order = np.argsort(np.where(nat, np.iinfo(np.int64).max, times), kind="stable")
+    key = np.where(nat, np.iinfo(np.int64).max, times)
+    if key.size < 2 or bool((key[1:] >= key[:-1]).all()):  # already in order: the stable sort is the identity
+        return samples.reset_index(drop=True)
+    order = np.argsort(key, kind="stable")
     return samples.iloc[order].reset_index(drop=True)
 
 
-def _screen_rows(w: pd.DataFrame, cfg: CleanConfig) -> tuple[np.ndarray, BoolArray, BoolArray, BoolArray]:
-    """Reasons of rejected rows, blanked-position mask, position-step mask, 'fast' mask (aircraft)."""
+def _screen_rows(
+    w: pd.DataFrame, t_ns: np.ndarray, cfg: CleanConfig
+) -> tuple[np.ndarray, BoolArray, BoolArray, BoolArray]:
+    """Reasons of rejected rows, blanked-position mask, position-step mask, 'fast' mask (aircraft).
+
+    ``t_ns`` is :func:`time_ns` of ``w`` (computed once by the caller)."""
     n = len(w)
     reason = np.full(n, "", dtype=object)
     _reject(reason, w[schema.TIME_UTC].isna().to_numpy(), schema.DROP_TIME_UNPARSEABLE)
@@ -111,10 +118,10 @@ def _screen_rows(w: pd.DataFrame, cfg: CleanConfig) -> tuple[np.ndarray, BoolArr
     no_fix = ~(np.isfinite(lat) & np.isfinite(lon))
     _reject(reason, ~has_speed & no_fix, schema.DROP_NO_SIGNAL)
     alive = np.flatnonzero(reason == "")
-    dups = duplicate_reasons(w.iloc[alive]).to_numpy(dtype=object, na_value="")
+    dups = duplicate_reasons(w if alive.size == n else w.iloc[alive]).to_numpy(dtype=object, na_value="")
     reason[alive] = dups
     alive = np.flatnonzero(reason == "")
-    t_s = (time_ns(w.iloc[alive]) - (time_ns(w.iloc[alive[:1]])[0] if alive.size else 0)) / NS_PER_S
+    t_s = (t_ns[alive] - (t_ns[alive[0]] if alive.size else 0)) / NS_PER_S
     stale = np.zeros(n, dtype=bool)
     stale[alive[stale_fixes(t_s, lat[alive], lon[alive], cfg)]] = True
     _reject(reason, stale & ~has_speed, schema.DROP_POSITION_STALE)
@@ -141,6 +148,18 @@ def _screen_rows(w: pd.DataFrame, cfg: CleanConfig) -> tuple[np.ndarray, BoolArr
     step = np.zeros(n, dtype=bool)
     step[alive[pos.step]] = True
     return reason, blanked, step, fast
+
+
+def _kept_rows(w: pd.DataFrame, alive: BoolArray, blanked: BoolArray) -> pd.DataFrame:
+    """The surviving rows of ``w`` (a new frame; ``w`` is not modified), blanked positions NaN."""
+    kept = w if alive.all() else w.loc[alive].reset_index(drop=True)  # no copy of the whole frame if all kept
+    gone = blanked[alive]
+    if not gone.any():
+        return kept
+    lat = kept[schema.LAT_DEG].to_numpy(dtype=np.float64, copy=True)
+    lon = kept[schema.LON_DEG].to_numpy(dtype=np.float64, copy=True)
+    lat[gone], lon[gone] = np.nan, np.nan
+    return kept.assign(**{schema.LAT_DEG: lat, schema.LON_DEG: lon})
 
 
 def _file_codes(files: pd.Series) -> tuple[np.ndarray, pd.Index]:
@@ -215,20 +234,19 @@ def clean_vehicle(samples: pd.DataFrame, cfg: CleanConfig) -> VehicleClean:
     """
     w = _prepare(samples)
     n = len(w)
-    reason, blanked, step_mask, fast = _screen_rows(w, cfg)
+    t_ns = time_ns(w)
+    reason, blanked, step_mask, fast = _screen_rows(w, t_ns, cfg)
     alive = reason == ""
-    kept = w.loc[alive].copy()
-    kept.loc[blanked[alive], [schema.LAT_DEG, schema.LON_DEG]] = np.nan
-    kept = kept.reset_index(drop=True)
+    kept = _kept_rows(w, alive, blanked)
     if kept.empty:
         out = empty_clean_frame()
         grid_like = {k: np.empty(0) for k in ("reported", "derived", "speed", "raw_elev", "climb", "distance")}
         per_sample = {**grid_like, "parked": np.empty(0, dtype=bool), "seg": np.empty(0, dtype=np.int64),
                       "clipped": np.empty(0, dtype=bool)}
         dropped = _dropped_table(w, alive, reason)
-        files = _file_summary(w, alive, blanked, step_mask, fast, out, per_sample, cfg.step_s, cfg)
+        files = _file_summary(w, t_ns, alive, blanked, step_mask, fast, out, per_sample, cfg.step_s, cfg)
         return VehicleClean(samples=out, dropped=dropped, files=files)
-    base = time_base(time_ns(kept), cfg)
+    base = time_base(t_ns[alive], cfg)
     breaks = step_mask[alive] & ~np.isfinite(kept[schema.SPEED_M_S].to_numpy(dtype=np.float64))
     grid = resample(kept, base, breaks_before=breaks)
     h = base.step_s
@@ -247,17 +265,15 @@ def clean_vehicle(samples: pd.DataFrame, cfg: CleanConfig) -> VehicleClean:
     accel = np.full(speed.size, np.nan) if base.low_rate else acceleration_m_s2(speed, seg, h)
     raw_elev, elev, grade, clipped, climb = _grade_columns(grid, distance, seg, cfg)
 
-    out = grid.copy()
-    out[schema.SPEED_M_S], out[schema.LAT_DEG], out[schema.LON_DEG] = speed, lat, lon
-    out[schema.ELEVATION_M] = elev
-    out[schema.IS_PARKED] = parked
-    out[schema.DISTANCE_M] = distance
-    out[schema.ACCEL_M_S2] = accel
-    out[schema.ELEVATION_RAW_M] = raw_elev
-    out[schema.GRADE] = grade
-    out = out[list(CLEAN_COLUMNS)]
+    computed = {
+        schema.SPEED_M_S: speed, schema.LAT_DEG: lat, schema.LON_DEG: lon, schema.ELEVATION_M: elev,
+        schema.IS_PARKED: parked, schema.DISTANCE_M: distance, schema.ACCEL_M_S2: accel,
+        schema.ELEVATION_RAW_M: raw_elev, schema.GRADE: grade,
+    }
+    out = pd.DataFrame({name: computed[name] if name in computed else grid[name] for name in CLEAN_COLUMNS})
     for name in schema.STRING_COLUMNS:
-        out[name] = out[name].astype("string")
+        if out[name].dtype != pd.StringDtype():  # already the canonical string dtype: no conversion
+            out[name] = out[name].astype("string")
 
     dropped = _dropped_table(w, alive, reason)
     if len(kept) + len(dropped) != n:
@@ -266,7 +282,7 @@ def clean_vehicle(samples: pd.DataFrame, cfg: CleanConfig) -> VehicleClean:
         "reported": reported, "derived": derived, "speed": speed, "parked": parked, "seg": seg,
         "raw_elev": raw_elev, "climb": climb, "clipped": clipped, "distance": distance,
     }
-    files = _file_summary(w, alive, blanked, step_mask, fast, out, per_sample, h, cfg)
+    files = _file_summary(w, t_ns, alive, blanked, step_mask, fast, out, per_sample, h, cfg)
     return VehicleClean(samples=out, dropped=dropped, files=files)
 
 
@@ -282,6 +298,7 @@ def _dropped_table(w: pd.DataFrame, alive: BoolArray, reason: np.ndarray) -> pd.
 
 def _file_summary(
     w: pd.DataFrame,
+    t_ns: np.ndarray,
     alive: BoolArray,
     blanked: BoolArray,
     step_mask: BoolArray,
@@ -292,18 +309,20 @@ def _file_summary(
     cfg: CleanConfig,
 ) -> pd.DataFrame:
     """One row per source file of this vehicle: counts, interval, distances, flags."""
-    row_files = w[schema.SOURCE_FILE].astype("string").fillna("").to_numpy(dtype=object)
-    grid_files = out[schema.SOURCE_FILE].astype("string").fillna("").to_numpy(dtype=object)
-    t_rows = time_ns(w.loc[alive]) if alive.any() else np.empty(0, dtype=np.int64)
-    alive_files = row_files[alive]
+    # files as codes (first-appearance order), not as object arrays of 10^6 strings
+    row_codes, names = pd.factorize(w[schema.SOURCE_FILE].astype("string").fillna(""), sort=False)
+    grid_codes = pd.Index(names).get_indexer(out[schema.SOURCE_FILE].astype("string").fillna(""))
+    t_rows = t_ns[alive]
+    alive_codes = row_codes[alive]
     dist_inc = np.r_[0.0, np.diff(m["distance"])] if m["distance"].size else m["distance"]
     interp = out[schema.IS_INTERPOLATED].to_numpy()
     vehicle = out[schema.VEHICLE_ID].iloc[0] if len(out) else w[schema.VEHICLE_ID].dropna().iloc[:1].squeeze()
     rows = []
-    for name in pd.unique(row_files):  # loop over files (few), not samples
-        sel = grid_files == name
-        mine = alive_files == name
-        in_file = row_files == name
+    for code, name in enumerate(names):  # loop over files (few), not samples
+        name = str(name)
+        sel = grid_codes == code
+        mine = alive_codes == code
+        in_file = row_codes == code
         interval = logging_interval_s(t_rows[mine])
         flags = _flags_of_file(out, m, sel, h, interval, float(fast[in_file].mean()), cfg)
         if step_mask[in_file & alive].any():

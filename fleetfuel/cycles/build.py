@@ -261,7 +261,14 @@ def _build(samples: pd.DataFrame, microtrips: pd.DataFrame, cfg: CyclesConfig, s
         cycles[name] = trace
         accept.append(_acceptance(name, target, achieved, cfg))
         parts.append(_composition(name, pool, options[best]))
-    acceptance = pd.concat(accept, ignore_index=True) if accept else pd.DataFrame(columns=list(ACCEPTANCE_COLUMNS))
+    if not accept:
+        raise CycleError(
+            f"too little driving to form cycles: none of the {len(names)} duty-cycle types has "
+            f"{cfg.target_duration_s / SECONDS_PER_MINUTE:g} min of driving logged at a uniform time step "
+            f"({int(table['eligible'].sum())} usable micro-trips, "
+            f"{table.loc[table['eligible'], 'duration_s'].sum() / SECONDS_PER_MINUTE:.1f} min)"
+        )
+    acceptance = pd.concat(accept, ignore_index=True)
     weights = type_weights(table, names)
     silhouettes = pd.DataFrame(
         {"types": list(model.silhouettes_), "silhouette": list(model.silhouettes_.values())}

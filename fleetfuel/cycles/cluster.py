@@ -98,7 +98,8 @@ def weighted_silhouette(z: FloatArray, labels: IntArray, weight: FloatArray) -> 
         a = sums[np.arange(labels.size), labels] / own
         other = np.where(onehot > 0, np.inf, sums / total[None, :])
     b = other.min(axis=1)
-    s = np.where(own > 0, (b - a) / np.maximum(a, b), 0.0)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        s = np.where(own > 0, (b - a) / np.maximum(a, b), 0.0)
     s = np.nan_to_num(s, nan=0.0)
     return float(np.sum(weight * s) / np.sum(weight))
 
@@ -217,9 +218,13 @@ class DutyTypeClusterer(ClusterMixin, BaseEstimator):
                     continue
                 z = pipe[:-1].transform(x[sub])
                 self.silhouettes_[k] = weighted_silhouette(z, labels[sub], w[sub])
-                fits[k] = pipe
+                if np.isfinite(self.silhouettes_[k]):
+                    fits[k] = pipe
         if not fits:
-            raise ValueError("no number of clusters in the range is admissible")
+            raise ValueError(
+                f"{len(x)} micro-trips do not split into {self.min_types} to {hi} well-separated types "
+                f"each holding at least {self.min_type_share:.0%} of the weight"
+            )
         best = max(self.silhouettes_[k] for k in fits)
         self.n_types_ = max(k for k in fits if self.silhouettes_[k] >= (1 - self.silhouette_tolerance) * best)
         self.pipeline_ = fits[self.n_types_]
@@ -267,7 +272,10 @@ def fit_types(features: pd.DataFrame, cfg: CyclesConfig) -> tuple[DutyTypeCluste
     Returns
     -------
     model : DutyTypeClusterer
-        Fitted on the complete rows at least ``cfg.min_fit_duration_s`` long with positive weight.
+        Fitted on the complete rows at least ``cfg.min_fit_duration_s`` long with positive weight;
+        each type holds at least ``cfg.min_type_share`` of the weight; while a type holds less
+        driving time than one cycle (``cfg.target_duration_s``), fewer types are fitted (down to
+        ``cfg.min_types``), so that small logs give types that can each have a cycle.
     columns : tuple of str
         The clustering features used (those known on at least one row).
 
@@ -283,9 +291,21 @@ def fit_types(features: pd.DataFrame, cfg: CyclesConfig) -> tuple[DutyTypeCluste
     w = fit_weight(table, cfg)
     duration = table["duration_s"].to_numpy(dtype=np.float64, na_value=np.nan)
     rows = np.all(np.isfinite(x), axis=1) & (w > 0) & (duration >= cfg.min_fit_duration_s)
+    model = _fit(x[rows], w[rows], cfg, cfg.max_types)
+    # Every type should hold one cycle's worth of driving (small logs): fewer types until it does.
+    time_s = duration[rows]
+    while model.n_types_ > cfg.min_types:
+        held = np.bincount(model.labels_, weights=time_s, minlength=model.n_types_)
+        if held.min() >= cfg.target_duration_s:
+            break
+        model = _fit(x[rows], w[rows], cfg, model.n_types_ - 1)
+    return model, columns
+
+
+def _fit(x: FloatArray, w: FloatArray, cfg: CyclesConfig, max_types: int) -> DutyTypeClusterer:
     model = DutyTypeClusterer(
         min_types=cfg.min_types,
-        max_types=cfg.max_types,
+        max_types=max_types,
         silhouette_sample=cfg.silhouette_sample,
         silhouette_tolerance=cfg.silhouette_tolerance,
         pca_variance=cfg.pca_variance,
@@ -293,7 +313,7 @@ def fit_types(features: pd.DataFrame, cfg: CyclesConfig) -> tuple[DutyTypeCluste
         min_type_share=cfg.min_type_share,
         random_state=cfg.seed,
     )
-    return model.fit(x[rows], sample_weight=w[rows]), columns
+    return model.fit(x, sample_weight=w)
 
 
 def predict_types(model: DutyTypeClusterer, columns: tuple[str, ...], features: pd.DataFrame) -> pd.Series:

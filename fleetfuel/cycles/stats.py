@@ -49,7 +49,7 @@ TARGET_STATS: Final = (
     "climb_m_per_km",
     "net_climb_m_per_km",
 )
-"""Statistics a representative cycle must match (definitions in :mod:`fleetfuel.segment.features`).
+r"""Statistics a representative cycle must match (definitions in :mod:`fleetfuel.segment.features`).
 
 ``net_climb_m_per_km`` is derived from two of them (:func:`with_derived`): climb minus descent
 per km, :math:`2\,c - 1000\,\bar{|g|}` [m/km]. A fleet's driving returns to its depots, so a

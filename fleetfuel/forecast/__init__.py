@@ -21,7 +21,14 @@ from __future__ import annotations
 from fleetfuel.forecast.annual import annual_figures, annualised_capital
 from fleetfuel.forecast.config import ForecastConfig
 from fleetfuel.forecast.mission import MISSION_COLUMNS, mission_table, route_classes
-from fleetfuel.forecast.ranking import BEST_COLUMNS, RANKING_COLUMNS, SAVINGS_COLUMNS, fleet_ranking, route_best, savings
+from fleetfuel.forecast.ranking import (
+    BEST_COLUMNS,
+    RANKING_COLUMNS,
+    SAVINGS_COLUMNS,
+    fleet_ranking,
+    route_best,
+    savings,
+)
 from fleetfuel.forecast.result import ForecastResult
 from fleetfuel.forecast.run import FORECAST_COLUMNS, Progress, forecast_fleet, spec_id
 

@@ -55,10 +55,9 @@ def sustained_grades(samples: pd.DataFrame, window_m: float) -> pd.Series:
     codes = codes[order]
     distance = rows[schema.DISTANCE_M].to_numpy(dtype=np.float64)[order]
     elevation = rows[schema.ELEVATION_M].to_numpy(dtype=np.float64)[order]
-    distance = np.maximum.accumulate(distance - distance.min())  # guard: never backwards
+    distance = distance - distance.min()
     spacing = distance.max() + 2 * window_m
-    axis = distance + codes * spacing  # trips end to end, more than a window apart
-    axis = np.maximum.accumulate(axis)
+    axis = np.maximum.accumulate(distance + codes * spacing)  # trips end to end, a gap apart; never backwards
     end = axis + window_m
     j = np.minimum(np.searchsorted(axis, end), axis.size - 1)
     inside = (axis[j] >= end) & (codes[j] == codes)

@@ -20,7 +20,9 @@ annual km
     ``planned_annual_km``, else km per operating day x ``operating_days_per_year``.
 payload
     ``ForecastConfig.payload_kg`` for the route, else the routes file's ``payload_kg``, else
-    each spec's own default payload (NaN here, ``payload_source`` "spec default").
+    the default payload of the class's current spec (``ForecastConfig.current_spec``: the load the
+    route carries today, so that every candidate carries the same), else each spec's own default
+    payload (NaN here, ``payload_source`` "spec default").
 vehicle class
     the first rule that applies: ``route_class`` of the route; else the classes of the vehicles
     seen on it (``vehicle_class`` of the vehicle, else its id's longest matching
@@ -30,6 +32,7 @@ vehicle class
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from typing import Final
 
 import numpy as np
@@ -158,6 +161,7 @@ def mission_table(
     weights: pd.DataFrame,
     type_labels: pd.Series,
     cfg: ForecastConfig,
+    current_payload_kg: Mapping[str, float] | None = None,
 ) -> pd.DataFrame:
     """One row per route: :data:`MISSION_COLUMNS` (definitions in the module docstring).
 
@@ -174,6 +178,8 @@ def mission_table(
     type_labels : Series
         Type -> label.
     cfg : ForecastConfig
+    current_payload_kg : mapping of str to float, optional
+        Vehicle class -> default payload of its current spec. [kg]
     """
     table = routes[[schema.ROUTE, "vehicle_ids", "vehicles", "trips", "distance_km", "duration_h", "payload_kg", "planned_annual_km"]].copy()
     table[schema.ROUTE] = table[schema.ROUTE].astype(str)
@@ -198,8 +204,11 @@ def mission_table(
     table["annual_km_source"] = np.where(planned_cfg.notna(), "config", np.where(planned_file.notna(), "routes file", "observed"))
     payload_cfg = table[schema.ROUTE].map(cfg.payload_kg).astype(np.float64)
     payload_file = table["payload_kg"].astype(np.float64)
-    table["payload_kg"] = payload_cfg.fillna(payload_file)
-    table["payload_source"] = np.where(payload_cfg.notna(), "config", np.where(payload_file.notna(), "routes file", "spec default"))
+    payload_now = table["vehicle_class"].map(dict(current_payload_kg or {})).astype(np.float64)
+    table["payload_kg"] = payload_cfg.fillna(payload_file).fillna(payload_now)
+    table["payload_source"] = np.select(
+        [payload_cfg.notna(), payload_file.notna(), payload_now.notna()],
+        ["config", "routes file", "current spec default"], default="spec default")
     grades = sustained_grades(samples, cfg.grade_window_m)
     table["steepest_grade"] = table[schema.ROUTE].map(grades).astype(np.float64)
     table["steepest_grade_pct"] = table["steepest_grade"] * PERCENT

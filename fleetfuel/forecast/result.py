@@ -32,19 +32,24 @@ class ForecastResult:
         Mission mix per route (:data:`fleetfuel.forecast.mission.MISSION_COLUMNS`).
     duty_mix : DataFrame
         Route x duty type shares, long form (:func:`fleetfuel.forecast.mission.duty_mix_table`).
-    operating_points : DataFrame
-        Engine operating points of each class's best-ranked combustion spec on the representative
-        cycles: ``vehicle_class, spec, type, engine_speed_rpm, engine_torque_nm, weight_s`` [rpm, N m, s].
+    operating_points : dict or None
+        The winning combustion spec on its fuel map: ``spec``, ``vehicle_class``, arrays
+        ``engine_speed_rpm`` [rpm] and ``torque_nm`` [N m] of its steps in gear under positive torque on the class's
+        cycles, and the map ``map_speed_rpm`` (n,), ``map_torque_nm`` (m,), ``map_fuel_g_s`` (m, n)
+        [g/s], NaN above the full-load curve. None when no combustion spec competes.
     assumptions : dict of str to str
         Label -> value and where it comes from (config, or the default and its source), in order.
-    cycles : CycleSet
-        The cycles stage's result (types, cycles, weights) for the report.
+    cycles : CycleSet or None
+        The cycles stage's result (types, cycles, weights) for the report; None when the logs
+        were too few to form duty types (every route simulated on its own logs).
     account : DataFrame or None
         The ingest data-quality account (one row per input file).
     routes : DataFrame
         The segment stage's route table.
     config : ForecastConfig
     currency : str
+    failures : tuple of (str, str)
+        Input files that could not be read: (path, one-line error); they are in ``account`` too.
     """
 
     route_forecast: pd.DataFrame
@@ -53,20 +58,24 @@ class ForecastResult:
     savings: pd.DataFrame
     missions: pd.DataFrame
     duty_mix: pd.DataFrame
-    operating_points: pd.DataFrame
+    operating_points: dict[str, object] | None
     assumptions: dict[str, str]
-    cycles: CycleSet
+    cycles: CycleSet | None
     account: pd.DataFrame | None
     routes: pd.DataFrame
     config: ForecastConfig
     currency: str
+    failures: tuple[tuple[str, str], ...] = ()
 
 
-def _origin(cfg: ForecastConfig, name: str, source: str) -> str:
-    """``"config"`` when the field differs from its default, else ``"default: <source>"``."""
+def _origin(cfg: ForecastConfig, name: str, source: str, key: str | None = None) -> str:
+    """``"config"`` when the field (or its entry ``key``) differs from its default, else ``"default: <source>"``."""
     default = {f.name: f for f in fields(ForecastConfig)}[name]
     value = default.default_factory() if callable(default.default_factory) else default.default  # type: ignore[misc]
-    return "config" if getattr(cfg, name) != value else f"default: {source}"
+    given = getattr(cfg, name)
+    if key is not None:
+        value, given = value.get(key), given.get(key)
+    return "config" if given != value else f"default: {source}"
 
 
 def assumption_list(cfg: ForecastConfig, missions: pd.DataFrame, full: bool, catalogue: str) -> dict[str, str]:
@@ -75,15 +84,15 @@ def assumption_list(cfg: ForecastConfig, missions: pd.DataFrame, full: bool, cat
     out: dict[str, str] = {"Currency": f"{cur}; prices are for a business buyer: duties in, VAT out"}
     src = "EU Weekly Oil Bulletin 2024 less VAT, from memory; illustrative"
     for fuel, price in cfg.fuel_price_per_l.items():
-        out[f"Price of {fuel}"] = f"{price:g} {cur}/L ({_origin(cfg, 'fuel_price_per_l', src)})"
+        out[f"Price of {fuel}"] = f"{price:g} {cur}/L ({_origin(cfg, 'fuel_price_per_l', src, fuel)})"
     for fuel, price in cfg.fuel_price_per_kg.items():
-        out[f"Price of {fuel}"] = f"{price:g} {cur}/kg ({_origin(cfg, 'fuel_price_per_kg', 'common practice, no source')})"
+        out[f"Price of {fuel}"] = f"{price:g} {cur}/kg ({_origin(cfg, 'fuel_price_per_kg', 'common practice, no source', fuel)})"
     out["Price of electricity"] = (f"{cfg.electricity_price_per_kwh:g} {cur}/kWh from the grid ("
                                    f"{_origin(cfg, 'electricity_price_per_kwh', 'Eurostat nrg_pc_205, EU-27 2024-S1 band ID excl. VAT, from memory')})")
     for fuel in FUELS.values():
         out[f"CO2 tank to wheel, {fuel.name}"] = f"{fuel.co2_kg_per_kg:.3f} kg/kg ({fuel.source})"
     for fuel, g in cfg.wtt_co2_g_per_mj.items():
-        out[f"CO2 well to tank, {fuel}"] = f"{g:g} g/MJ ({_origin(cfg, 'wtt_co2_g_per_mj', 'JEC WTW v5 (2020), from memory')})"
+        out[f"CO2 well to tank, {fuel}"] = f"{g:g} g/MJ ({_origin(cfg, 'wtt_co2_g_per_mj', 'JEC WTW v5 (2020), from memory', fuel)})"
     out["CO2 of grid electricity"] = (f"{cfg.grid_co2_kg_per_kwh:g} kg/kWh ("
                                       f"{_origin(cfg, 'grid_co2_kg_per_kwh', 'EEA, EU-27 generation 2023, from memory')})")
     out["CO2 per year column"] = "co2_kg_per_year is well to wheel (fuel production, combustion, grid generation)"
@@ -94,12 +103,13 @@ def assumption_list(cfg: ForecastConfig, missions: pd.DataFrame, full: bool, cat
     out["Annual distance"] = ("planned value (config, then routes file) where given, else the route's km per fleet "
                               "operating day x operating days per year; sources per route in the mission table")
     counts = missions["payload_source"].value_counts().to_dict() if len(missions) else {}
-    out["Payload"] = ("per route from config, then routes file, else each spec's own default payload; routes: "
+    out["Payload"] = ("per route from config, then routes file, then the class's current spec's default payload, "
+                      "else each spec's own default payload; routes: "
                       + ", ".join(f"{k} {v}" for k, v in sorted(counts.items())))
     out["Vehicle class of a route"] = ("route_class, else the class of its vehicles (vehicle_class, else id prefix "
                                        + ", ".join(f"{p}->{c}" for p, c in cfg.class_prefixes.items())
                                        + (f", else {cfg.default_class}" if cfg.default_class else "") + ")")
-    out["Simulated on"] = ("every route on its own logs (--full)" if full else
+    out["Simulated on"] = ("every route on its own logs (asked for with --full, or too little driving to form duty types)" if full else
                            "the duty types' representative cycles, weighted by the route's distance shares; routes "
                            "with less driving than their cycles, on their own logs")
     out["Shift"] = ("an operating period (driving between rests of 4 h or more); electric specs start each shift at "

@@ -8,18 +8,31 @@ from typing import Final
 import numpy as np
 import pandas as pd
 
-from fleetfuel import schema
+from fleetfuel import schema, segment
 from fleetfuel.cycles import CycleSet
+from fleetfuel.cycles.weights import WEIGHT_COLUMNS
 from fleetfuel.errors import ConfigError
 from fleetfuel.forecast.annual import annual_figures
 from fleetfuel.forecast.config import ForecastConfig
-from fleetfuel.forecast.energy import RouteEnergy, cycle_runs, energy_from_cycles, energy_from_logs, shift_traces
-from fleetfuel.forecast.feasibility import best_gradeability_pct, check_cell, payload_reason, usable_after_reserve_kwh
+from fleetfuel.forecast.energy import (
+    RouteEnergy,
+    cycle_runs,
+    energy_from_cycles,
+    energy_from_logs,
+    shift_traces,
+)
+from fleetfuel.forecast.feasibility import (
+    best_gradeability_pct,
+    check_cell,
+    payload_reason,
+    usable_after_reserve_kwh,
+)
 from fleetfuel.forecast.mission import duty_mix_table, mission_table, shift_distances
 from fleetfuel.forecast.ranking import fleet_ranking, route_best, savings
 from fleetfuel.forecast.result import ForecastResult, assumption_list
 from fleetfuel.simulate import SimConfig, SimResult, VehicleSpec
 from fleetfuel.simulate.envelope import Envelope, performance_envelope
+from fleetfuel.simulate.fuelmap import fuel_model, max_torque_nm
 from fleetfuel.units import SECONDS_PER_HOUR
 
 Progress = Callable[[int, int, str], None]
@@ -57,28 +70,28 @@ def _check_specs(specs: Sequence[VehicleSpec], cfg: ForecastConfig) -> dict[str,
     return by_id
 
 
-def _use_logs(full: bool, mix: pd.DataFrame, cycle_set: CycleSet, driving_h: float) -> bool:
+def _use_logs(full: bool, mix: pd.DataFrame, cycles: dict[str, pd.DataFrame], driving_h: float) -> bool:
     """Simulate the route on its own logs: asked to, no cycle covers it, or it is shorter than its cycles."""
     if full:
         return True
-    used = [t for t in mix.index[mix["distance_share"] > 0] if t in cycle_set.cycles]
+    used = [t for t in mix.index[mix["distance_share"] > 0] if t in cycles]
     if not used:
         return True
-    cycles_s = sum(float(cycle_set.cycles[t]["time_s"].iloc[-1] - cycle_set.cycles[t]["time_s"].iloc[0]) for t in used)
+    cycles_s = sum(float(cycles[t]["time_s"].iloc[-1] - cycles[t]["time_s"].iloc[0]) for t in used)
     return driving_h * SECONDS_PER_HOUR <= cycles_s
 
 
 class _Cache:
     """Cycle runs and envelopes per (spec, payload), computed once."""
 
-    def __init__(self, cycle_set: CycleSet, sim_cfg: SimConfig) -> None:
-        self.cycle_set, self.sim_cfg = cycle_set, sim_cfg
+    def __init__(self, cycles: dict[str, pd.DataFrame], sim_cfg: SimConfig) -> None:
+        self.cycles, self.sim_cfg = cycles, sim_cfg
         self.runs: dict[tuple[str, float], tuple[pd.DataFrame, dict[str, SimResult]]] = {}
         self.envelopes: dict[tuple[str, float], Envelope] = {}
 
     def run(self, key: str, spec: VehicleSpec, payload: float) -> tuple[pd.DataFrame, dict[str, SimResult]]:
         if (key, payload) not in self.runs:
-            self.runs[key, payload] = cycle_runs(self.cycle_set.cycles, spec, payload, self.sim_cfg)
+            self.runs[key, payload] = cycle_runs(self.cycles, spec, payload, self.sim_cfg)
         return self.runs[key, payload]
 
     def envelope(self, key: str, spec: VehicleSpec, payload: float) -> Envelope:
@@ -107,32 +120,63 @@ def _cell(mission: dict[str, object], key: str, spec: VehicleSpec, energy: Route
     }
 
 
-def _operating_points(ranking: pd.DataFrame, cache: _Cache, by_id: dict[str, VehicleSpec]) -> pd.DataFrame:
-    """Engine points of each class's best-ranked combustion spec on the cycles (its default payload)."""
-    parts = []
-    for cls, rows in ranking.sort_values("rank").groupby("vehicle_class", sort=True):
-        combustion = rows.loc[rows["powertrain"] == "combustion"]
-        if combustion.empty:
-            continue
-        key = str(combustion["spec"].iloc[0])
-        spec = by_id[key]
-        _, results = cache.run(key, spec, spec.payload_or_default())
-        for name, run in results.items():
-            parts.append(pd.DataFrame({
-                "vehicle_class": cls, "spec": key, "type": name, "engine_speed_rpm": run.steps.shaft_speed_rpm,
-                "engine_torque_nm": run.steps.shaft_torque_nm, "weight_s": run.weight_s,
-            }))
-    cols = ["vehicle_class", "spec", "type", "engine_speed_rpm", "engine_torque_nm", "weight_s"]
-    return pd.concat(parts, ignore_index=True)[cols] if parts else pd.DataFrame(columns=cols)
+MAP_POINTS: Final = 40  # grid points per axis of the fuel-map contours (presentation only)
+
+
+def _fuel_map_grid(spec: VehicleSpec) -> dict[str, np.ndarray]:
+    """The spec's fuel model on a speed x torque grid below its full-load curve (NaN above)."""
+    engine = spec.engine
+    assert engine is not None
+    speed = np.linspace(engine.idle_speed_rpm, engine.max_speed_rpm, MAP_POINTS)
+    _, curve_nm = engine.full_load_arrays()
+    torque = np.linspace(0.0, float(np.max(curve_nm)), MAP_POINTS)
+    s_grid, t_grid = np.meshgrid(speed, torque)  # shape (torque, speed)
+    fuel = fuel_model(engine).fuel_rate_g_s(s_grid, t_grid)
+    above = t_grid > max_torque_nm(engine, s_grid)
+    return {"map_speed_rpm": speed, "map_torque_nm": torque, "map_fuel_g_s": np.where(above, np.nan, fuel)}
+
+
+def _operating_points(ranking: pd.DataFrame, table: pd.DataFrame, duty_mix: pd.DataFrame, cache: _Cache,
+                      by_id: dict[str, VehicleSpec]) -> dict[str, object] | None:
+    """Engine operating points of the winning combustion spec on the cycles of its class's duty types.
+
+    The spec: the best-ranked combustion spec of the class with the largest energy cost (where fuel
+    matters most), at its default payload; its fuel map on a grid for the contours.
+    """
+    combustion = ranking.loc[(ranking["powertrain"] == "combustion")].sort_values("rank")
+    if combustion.empty:
+        return None
+    stake = table.groupby("vehicle_class")["energy_cost_per_year"].max()
+    cls = max(combustion["vehicle_class"].unique(), key=lambda c: (float(stake.get(c, 0.0)), str(c)))
+    key = str(combustion.loc[combustion["vehicle_class"] == cls, "spec"].iloc[0])
+    spec = by_id[key]
+    used = set(duty_mix.loc[(duty_mix["vehicle_class"] == cls) & (duty_mix["distance_share"] > 0), "type"])
+    _, results = cache.run(key, spec, spec.payload_or_default())
+    runs = [run for name, run in sorted(results.items()) if name in used] or list(results.values())
+    pulling = [(r.steps.gear > 0) & (r.steps.shaft_torque_nm > 0) for r in runs]  # in gear, engine driving
+    speed = np.concatenate([r.steps.shaft_speed_rpm[k] for r, k in zip(runs, pulling, strict=True)])
+    torque = np.concatenate([r.steps.shaft_torque_nm[k] for r, k in zip(runs, pulling, strict=True)])
+    return {"spec": key, "vehicle_class": cls, "engine_speed_rpm": speed, "torque_nm": torque, **_fuel_map_grid(spec)}
+
+
+def _typed(cycle_set: CycleSet | None, microtrips: pd.DataFrame | None, samples: pd.DataFrame
+           ) -> tuple[pd.DataFrame, pd.DataFrame, pd.Series, dict[str, pd.DataFrame]]:
+    """Typed micro-trips, type weights, type labels and cycle traces (untyped and empty without cycles)."""
+    if cycle_set is not None:
+        return cycle_set.microtrips, cycle_set.weights, cycle_set.types.set_index("type")["label"], cycle_set.cycles
+    table = segment.microtrip_features(samples) if microtrips is None else microtrips
+    table = table.assign(type=pd.Series(pd.NA, index=table.index, dtype="string"))
+    return table, pd.DataFrame(columns=list(WEIGHT_COLUMNS)), pd.Series(dtype=str), {}
 
 
 def forecast_fleet(
     samples: pd.DataFrame,
     routes: pd.DataFrame,
-    cycle_set: CycleSet,
+    cycle_set: CycleSet | None,
     specs: Sequence[VehicleSpec],
     cfg: ForecastConfig | None = None,
     *,
+    microtrips: pd.DataFrame | None = None,
     full: bool = False,
     sim_cfg: SimConfig | None = None,
     account: pd.DataFrame | None = None,
@@ -147,8 +191,11 @@ def forecast_fleet(
         Segmented clean frame with routes (:func:`fleetfuel.segment.assign_routes`).
     routes : DataFrame
         Its route table.
-    cycle_set : CycleSet
-        The cycles stage's result on those samples (:func:`fleetfuel.cycles.build_cycles`).
+    cycle_set : CycleSet or None
+        The cycles stage's result on those samples (:func:`fleetfuel.cycles.build_cycles`); None
+        when no duty types could be formed: every route is then simulated on its own logs.
+    microtrips : DataFrame, optional
+        Without ``cycle_set``: the micro-trip feature table (computed from ``samples`` when None).
     specs : sequence of VehicleSpec
         Candidate specs (:func:`fleetfuel.simulate.load_catalogue`); a route competes the specs
         of its vehicle class.
@@ -175,11 +222,12 @@ def forecast_fleet(
     cfg = cfg or ForecastConfig()
     sim_cfg = sim_cfg or SimConfig()
     by_id = _check_specs(specs, cfg)
-    labels = cycle_set.types.set_index("type")["label"]
-    missions = mission_table(routes, cycle_set.microtrips, samples, cycle_set.weights, labels, cfg)
-    shifts = shift_distances(cycle_set.microtrips)
-    weights = cycle_set.weights.loc[cycle_set.weights["level"] == "route"]
-    cache = _Cache(cycle_set, sim_cfg)
+    microtrips, weights_all, labels, cycles = _typed(cycle_set, microtrips, samples)
+    current_payload = {cls: by_id[key].body.payload_kg for cls, key in cfg.current_spec.items()}
+    missions = mission_table(routes, microtrips, samples, weights_all, labels, cfg, current_payload)
+    shifts = shift_distances(microtrips)
+    weights = weights_all.loc[weights_all["level"] == "route"]
+    cache = _Cache(cycles, sim_cfg)
     jobs = [(m, k, s) for m in missions.to_dict("records") for k, s in by_id.items() if s.vehicle_class == m["vehicle_class"]]
     rows, traces = [], {}
     for done, (mission, key, spec) in enumerate(jobs, start=1):
@@ -190,7 +238,7 @@ def forecast_fleet(
         energy = envelope = None
         reasons = [reason] if reason else []
         if not reason:
-            if _use_logs(full, mix, cycle_set, float(mission["driving_h"])):
+            if _use_logs(full, mix, cycles, float(mission["driving_h"])):
                 if route not in traces:
                     traces[route] = shift_traces(samples, route)
                 energy = energy_from_logs(traces[route], spec, payload, sim_cfg)
@@ -206,10 +254,12 @@ def forecast_fleet(
     table = table.sort_values(["vehicle_class", schema.ROUTE, "spec"], kind="stable").reset_index(drop=True)
     ranking = fleet_ranking(table)
     best = route_best(table, missions)
+    duty_mix = duty_mix_table(weights_all, labels, missions)
     return ForecastResult(
         route_forecast=table, fleet_ranking=ranking, route_best=best, savings=savings(ranking, best, cfg.current_spec),
-        missions=missions, duty_mix=duty_mix_table(cycle_set.weights, labels, missions),
-        operating_points=_operating_points(ranking, cache, by_id),
-        assumptions=assumption_list(cfg, missions, full, catalogue), cycles=cycle_set, account=account,
+        missions=missions, duty_mix=duty_mix,
+        operating_points=_operating_points(ranking, table, duty_mix, cache, by_id),
+        assumptions=assumption_list(cfg, missions, full or cycle_set is None, catalogue), cycles=cycle_set,
+        account=account,
         routes=routes, config=cfg, currency=cfg.currency,
     )

@@ -18,12 +18,22 @@ from typing import Any, Final
 import pandas as pd
 
 from fleetfuel.report import quality
-from fleetfuel.report.tables import assumptions_table, fleet_ranking_table, plain_value, route_forecast_table
+from fleetfuel.report.tables import (
+    FLEET_RANKING_COLUMNS,
+    ROUTE_FORECAST_COLUMNS,
+    assumptions_table,
+    fleet_ranking_table,
+    plain_value,
+    route_forecast_table,
+)
 from fleetfuel.report.view import ReportView
 
 TEMPLATE: Final = ("templates", "report.html.tmpl")
 TITLE: Final = "Fleet fuel and energy forecast"
 SUBTITLE: Final = "Per-route forecast of candidate vehicle specs from the fleet's own logs."
+RANKING_EXTRA: Final = ("spec_name", "annual_km")
+ROUTE_EXTRA: Final = ("spec_name", "kwh_per_100km", "co2_wtw_kg_per_year")
+"""Columns shown in the page besides the fixed ones, when the result has them (all are in the CSV/XLSX)."""
 QUALITY_COLUMNS: Final = (
     ("path", "file"),
     ("vehicle_ids", "vehicles"),
@@ -74,7 +84,7 @@ def table_html(frame: pd.DataFrame, row_class: list[str] | None = None) -> str:
         attr = f' class="{html.escape(cls)}"' if cls else ""
         cells = "".join(_cell(str(c), v) for c, v in zip(frame.columns, values, strict=True))
         rows.append(f"<tr{attr}>{cells}</tr>")
-    return f"<table><thead><tr>{head}</tr></thead><tbody>{''.join(rows)}</tbody></table>"
+    return f'<div class="scroll"><table><thead><tr>{head}</tr></thead><tbody>{"".join(rows)}</tbody></table></div>'
 
 
 def image_html(png: bytes, alt: str) -> str:
@@ -86,6 +96,7 @@ def image_html(png: bytes, alt: str) -> str:
 
 def _answer(view: ReportView, figures: Mapping[str, bytes]) -> str:
     ranking = fleet_ranking_table(view.fleet_ranking)
+    shown = ranking.loc[:, [*FLEET_RANKING_COLUMNS, *(c for c in RANKING_EXTRA if c in ranking.columns)]]
     parts = []
     for vehicle_class, group in ranking.groupby("vehicle_class", sort=True):
         best = group.iloc[0]
@@ -98,7 +109,7 @@ def _answer(view: ReportView, figures: Mapping[str, bytes]) -> str:
         if unserved:
             text += f"; it cannot serve {html.escape(str(unserved))}"
         parts.append(text + ".</p>")
-    parts.append(table_html(ranking))
+    parts.append(table_html(shown))
     if "ranking" in figures:
         parts.append(image_html(figures["ranking"], "Spec ranking per vehicle class"))
     if not view.route_best.empty:
@@ -112,13 +123,17 @@ def _answer(view: ReportView, figures: Mapping[str, bytes]) -> str:
 
 def _routes(view: ReportView, figures: Mapping[str, bytes]) -> str:
     table = route_forecast_table(view.route_forecast)
+    shown = table.loc[:, [*ROUTE_FORECAST_COLUMNS, *(c for c in ROUTE_EXTRA if c in table.columns)]]
     feasible = table["feasible"].fillna(False).astype(bool).tolist()
     parts = [
-        f'<p class="note">Money in {html.escape(view.currency)}; greyed rows: the spec cannot serve the route.</p>',
-        table_html(table, ["" if ok else "infeasible" for ok in feasible]),
+        f'<p class="note">Money in {html.escape(view.currency)}; marked rows: the spec cannot serve the route. '
+        "Every column is in route_forecast.csv and route_forecast.xlsx.</p>",
+        table_html(shown, ["" if ok else "infeasible" for ok in feasible]),
     ]
     if "route_consumption" in figures:
         parts.append(image_html(figures["route_consumption"], "Fuel per 100 km by route and spec"))
+    if "route_electric" in figures:
+        parts.append(image_html(figures["route_electric"], "Electricity per 100 km by route and spec"))
     if "fuel_map" in figures:
         parts.append(image_html(figures["fuel_map"], "Operating points of the winning combustion spec on its fuel map"))
     if not view.missions.empty:

@@ -36,6 +36,7 @@ FILE_NAMES: Final = (
 PLOT_FILES: Final = {
     "ranking": "plot_ranking.png",
     "route_consumption": "plot_route_fuel.png",
+    "route_electric": "plot_route_electricity.png",
     "duty_mix": "plot_duty_mix.png",
     "fuel_map": "plot_fuel_map.png",
 }
@@ -53,19 +54,31 @@ def figures(view: ReportView) -> dict[str, Figure]:
         out["ranking"] = plots.ranking_bars(view.fleet_ranking, currency=view.currency)
     if not view.route_forecast.empty:
         out["route_consumption"] = plots.route_consumption_bars(view.route_forecast)
+        kwh = view.route_forecast.get("kwh_per_100km")
+        if kwh is not None and bool((kwh.fillna(0.0) > 0).any()):
+            out["route_electric"] = plots.route_consumption_bars(view.route_forecast, column="kwh_per_100km")
     if not view.duty_mix.empty:
         out["duty_mix"] = plots.duty_mix_bars(view.duty_mix)
     points = view.operating_points
     if points is not None:
-        keys = ("engine_speed_rpm", "torque_nm", "map_speed_rpm", "map_torque_nm", "map_fuel_g_s")
         spec = points.get("spec")
-        title = f"Operating points of {spec} on its fuel map" if spec else ""
-        out["fuel_map"] = plots.fuel_map_points(*(points[k] for k in keys), title=title)
+        out["fuel_map"] = plots.fuel_map_points(
+            points["engine_speed_rpm"],
+            points["torque_nm"],
+            points["map_speed_rpm"],
+            points["map_torque_nm"],
+            points["map_fuel_g_s"],
+            title=f"Operating points of {spec} on its fuel map" if spec else "",
+        )
     for name, trace in view.cycle_traces.items():
         out[f"cycle_{name}"] = plots.cycle_trace_plot(
             trace["time_s"].to_numpy(), trace["speed_m_s"].to_numpy(), title=f"duty type {name}"
         )
     return out
+
+
+def _constant(data: bytes) -> Callable[[], bytes]:
+    return lambda: data
 
 
 def _plot_file(name: str) -> str:
@@ -86,7 +99,7 @@ def _jobs(view: ReportView, step: Callable[[str], None]) -> list[tuple[str, Call
         (ROUTE_FORECAST_XLSX, lambda: workbook_bytes(view.route_forecast, view.fleet_ranking, view.assumptions)),
         (REPORT_HTML, lambda: report_html(view, pngs).encode("utf-8")),
     ]
-    jobs += [(_plot_file(name), lambda data=data: data) for name, data in pngs.items()]
+    jobs += [(_plot_file(name), _constant(data)) for name, data in pngs.items()]
     return jobs
 
 
@@ -139,7 +152,7 @@ def write_outputs(
     except OSError as exc:
         raise OutputError(f"{exc.filename or out_dir}: cannot create folder ({exc.strerror or exc})") from None
     view = report_view(result)
-    total = 2 * (len(view.cycle_traces) + len(PLOT_FILES)) + len(FILE_NAMES)
+    total = 2 * (len(view.cycle_traces) + len(PLOT_FILES)) + len(FILE_NAMES)  # upper bound; ends full
     done = 0
 
     def step(note: str) -> None:

@@ -41,24 +41,12 @@ def ranked_value_column(ranked_by: str) -> str:
     return RANK_VALUE_COLUMNS[0] if "tco" in str(ranked_by).lower() else RANK_VALUE_COLUMNS[1]
 
 
-def ranking_bars(fleet_ranking: pd.DataFrame, ax: Axes | None = None, currency: str = "") -> Figure:
-    """Horizontal bars of each class's specs by the figure they are ranked on; hatched: not every route served.
-
-    Parameters
-    ----------
-    fleet_ranking : DataFrame
-        ``vehicle_class``, ``rank``, ``spec``, ``ranked_by``, ``tco_per_year``, ``energy_cost_per_year``,
-        ``routes_not_served``.
-    currency : str
-        Label of the money unit.
-    """
-    table = fleet_ranking.sort_values(["vehicle_class", "rank", "spec"], kind="mergesort")
-    fig, ax = _axes(ax, (FIGSIZE_IN[0], max(2.0, 0.4 * len(table) + 1.0)))
+def _ranking_panel(ax: Axes, table: pd.DataFrame, currency: str) -> None:
     labels, values, hatched = [], [], []
     for row in table.itertuples(index=False):
-        column = ranked_value_column(str(row.ranked_by))
+        value = getattr(row, ranked_value_column(str(row.ranked_by)))
         labels.append(f"{row.vehicle_class}: {row.rank}. {row.spec}")
-        values.append(float(getattr(row, column)) if pd.notna(getattr(row, column)) else 0.0)
+        values.append(float(value) if pd.notna(value) else 0.0)
         unserved = row.routes_not_served
         hatched.append(bool(len(unserved)) if isinstance(unserved, list | tuple) else bool(unserved))
     y = np.arange(len(labels))[::-1]
@@ -70,31 +58,75 @@ def ranking_bars(fleet_ranking: pd.DataFrame, ax: Axes | None = None, currency: 
     ax.set_yticks(y, labels)
     ranked = ", ".join(sorted({ranked_value_column(str(v)) for v in table["ranked_by"]}))
     ax.set_xlabel(f"{ranked} [{currency or 'currency'}/year]")
-    ax.set_title("Spec ranking per vehicle class (hatched: cannot serve every route)")
+
+
+def ranking_bars(fleet_ranking: pd.DataFrame, ax: Axes | None = None, currency: str = "") -> Figure:
+    """Horizontal bars of each class's specs by the figure they are ranked on; hatched: not every route served.
+
+    Without ``ax``, one panel per vehicle class (each on its own scale); with ``ax``, all on it.
+
+    Parameters
+    ----------
+    fleet_ranking : DataFrame
+        ``vehicle_class``, ``rank``, ``spec``, ``ranked_by``, ``tco_per_year``, ``energy_cost_per_year``,
+        ``routes_not_served`` (list, or text: empty when every route is served).
+    currency : str
+        Label of the money unit.
+    """
+    table = fleet_ranking.sort_values(["vehicle_class", "rank", "spec"], kind="mergesort")
+    title = "Ranking per vehicle class (hatched: cannot serve every route)"
+    if ax is not None:
+        _ranking_panel(ax, table, currency)
+        ax.set_title(title)
+        return ax.figure  # type: ignore[return-value]
+    groups = [group for _, group in table.groupby("vehicle_class", sort=True)] or [table]
+    height = sum(max(1.2, 0.35 * len(g) + 0.9) for g in groups)
+    fig = Figure(figsize=(FIGSIZE_IN[0], height), dpi=DPI, layout="constrained")
+    FigureCanvasAgg(fig)
+    axes = fig.subplots(len(groups), 1, squeeze=False, height_ratios=[len(g) + 1 for g in groups])[:, 0]
+    for panel, group in zip(axes, groups, strict=True):
+        _ranking_panel(panel, group, currency)
+    fig.suptitle(title)
     return fig
 
 
-def route_consumption_bars(route_forecast: pd.DataFrame, ax: Axes | None = None) -> Figure:
-    """Grouped bars: L/100 km of each spec on each route (infeasible cells drawn pale)."""
+CONSUMPTION_LABELS: Final = {
+    "fuel_l_per_100km": "fuel [L/100 km]",
+    "kwh_per_100km": "electricity from the grid [kWh/100 km]",
+}
+
+
+def route_consumption_bars(
+    route_forecast: pd.DataFrame, ax: Axes | None = None, column: str = "fuel_l_per_100km"
+) -> Figure:
+    """Grouped bars: ``column`` (default L/100 km) of the specs competing on each route; infeasible drawn pale.
+
+    Each route gets bars only for the specs offered on it (its class's), one colour per spec.
+    """
     fig, ax = _axes(ax)
-    routes = sorted(route_forecast["route"].astype(str).unique())
-    specs = sorted(route_forecast["spec"].astype(str).unique())
-    width = BAR_HEIGHT / max(1, len(specs))
-    x = np.arange(len(routes))
-    for j, spec in enumerate(specs):
-        rows = route_forecast.loc[route_forecast["spec"].astype(str) == spec]
-        by_route = rows.set_index(rows["route"].astype(str))
-        values = by_route["fuel_l_per_100km"].reindex(routes).to_numpy(dtype=float)
-        feasible = by_route["feasible"].reindex(routes).fillna(False).to_numpy(dtype=bool)
-        offset = (j - (len(specs) - 1) / 2) * width
-        bars = ax.bar(x + offset, np.nan_to_num(values), width=width, label=spec)
-        for bar, ok in zip(bars, feasible, strict=True):
-            bar.set_alpha(1.0 if ok else POINT_ALPHA)
-    ax.set_xticks(x, routes, rotation=30, ha="right")
-    ax.set_ylabel("fuel [L/100 km]")
-    ax.set_title("Fuel per 100 km by route and spec (pale: infeasible)")
+    table = route_forecast.assign(route=route_forecast["route"].astype(str), spec=route_forecast["spec"].astype(str))
+    table = table.sort_values(["route", "spec"], kind="mergesort")
+    routes = list(dict.fromkeys(table["route"]))
+    specs = sorted(table["spec"].unique())
+    colours = {spec: f"C{j % 10}" for j, spec in enumerate(specs)}
+    hatches = {spec: ("" if j < 10 else "..") for j, spec in enumerate(specs)}
+    widest = max([int(n) for n in table.groupby("route", sort=False).size()] or [1])
+    width = BAR_HEIGHT / widest
+    labelled: set[str] = set()
+    for i, (_, rows) in enumerate(table.groupby("route", sort=False)):
+        offsets = (np.arange(len(rows)) - (len(rows) - 1) / 2) * width
+        values = np.nan_to_num(rows[column].to_numpy(dtype=float))
+        feasible = rows["feasible"].fillna(True).to_numpy(dtype=bool)
+        for offset, value, ok, spec in zip(offsets, values, feasible, rows["spec"], strict=True):
+            ax.bar(i + offset, value, width=width, color=colours[spec], hatch=hatches[spec],
+                   alpha=1.0 if ok else POINT_ALPHA, label=None if spec in labelled else spec)
+            labelled.add(spec)
+    ax.set_xticks(np.arange(len(routes)), routes, rotation=30, ha="right")
+    label = CONSUMPTION_LABELS.get(column, column)
+    ax.set_ylabel(label)
+    ax.set_title(f"{label.split(' [')[0].capitalize()} per 100 km by route and spec (pale: infeasible)")
     if specs:
-        ax.legend(fontsize="small")
+        ax.legend(fontsize="x-small", ncols=2)
     return fig
 
 
@@ -118,7 +150,7 @@ def duty_mix_bars(duty_mix: pd.DataFrame, ax: Axes | None = None) -> Figure:
     ax.set_xlabel("share of distance [1]")
     ax.set_title("Duty-type mix per route")
     if len(duty_mix.columns):
-        ax.legend(fontsize="small", loc="lower right")
+        ax.legend(fontsize="small", loc="upper center", bbox_to_anchor=(0.5, -0.12), ncols=min(3, len(duty_mix.columns)))
     return fig
 
 
@@ -130,7 +162,12 @@ def duty_mix_wide(duty_mix: pd.DataFrame) -> pd.DataFrame:
     """
     if {"route", "type"} <= set(duty_mix.columns):
         value = next(c for c in ("distance_share", "share", "weight", "time_share") if c in duty_mix.columns)
-        wide = duty_mix.pivot_table(index="route", columns="type", values=value, aggfunc="sum", fill_value=0.0)
+        named = duty_mix
+        if "label" in duty_mix.columns:
+            label = duty_mix["label"].astype("string").fillna("").astype(str)
+            kind = duty_mix["type"].astype(str)
+            named = duty_mix.assign(type=kind.where(label.eq("") | label.eq(kind), kind + " (" + label + ")"))
+        wide = named.pivot_table(index="route", columns="type", values=value, aggfunc="sum", fill_value=0.0)
     else:
         wide = duty_mix.set_index("route") if "route" in duty_mix.columns else duty_mix
         wide = wide.select_dtypes("number")
@@ -177,6 +214,9 @@ def fuel_map_points(
     contours = ax.contour(map_speed_rpm, map_torque_nm, grid, levels=FUEL_MAP_LEVELS, cmap="viridis")
     ax.clabel(contours, fontsize="x-small")
     ax.scatter(engine_speed_rpm, torque_nm, s=POINT_SIZE, alpha=POINT_ALPHA, color="tab:red", label="operation")
+    # the view is the map: motoring (negative torque) and points off the map stay out of sight
+    ax.set_xlim(float(np.min(map_speed_rpm)), float(np.max(map_speed_rpm)))
+    ax.set_ylim(min(0.0, float(np.min(map_torque_nm))), float(np.max(map_torque_nm)))
     ax.set_xlabel("engine speed [rpm]")
     ax.set_ylabel("torque [N m]")
     ax.set_title(title or "Operating points on the fuel map (contours: fuel rate [g/s])")
