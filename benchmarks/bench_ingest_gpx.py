@@ -29,7 +29,6 @@ import tempfile
 import time
 from pathlib import Path
 
-
 REPO = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(REPO))
 
@@ -110,15 +109,27 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--repeat", type=int, default=1)
     parser.add_argument("--skip-gpxpy", action="store_true", help="only the fast path (memory check)")
     parser.add_argument("--child", nargs=2, metavar=("KIND", "PATH"), help=argparse.SUPPRESS)
+    parser.add_argument("--write", metavar="PATH", help=argparse.SUPPRESS)  # child: write the file, exit
     args = parser.parse_args(argv)
+    if args.write:  # in its own process: Linux keeps a peak RSS across fork and exec, so the
+        # readers' children must not descend from a process that held the generated fleet
+        write_gpx(Path(args.write), args.points)
+        return 0
+    if args.child and args.child[0] == "size":  # child: points for a file size, without the sample in the parent
+        print(points_for_megabytes(float(args.child[1])))
+        return 0
     if args.child:
         _child(args.child[0], Path(args.child[1]))
         return 0
-    points = points_for_megabytes(args.megabytes) if args.megabytes else args.points
+    points = args.points
+    if args.megabytes:
+        sizing = [sys.executable, __file__, "--child", "size", str(args.megabytes)]
+        points = int(subprocess.run(sizing, check=True, capture_output=True, text=True).stdout.split()[-1])
     with tempfile.TemporaryDirectory() as tmp:
         path = Path(tmp) / "benchmark_drive.gpx"
         start = time.perf_counter()
-        write_gpx(path, points)
+        subprocess.run([sys.executable, __file__, "--write", str(path), "--points", str(points)], check=True,
+                       capture_output=True)
         size_mib = path.stat().st_size / 2**20
         print(f"file: {points:,} points, {size_mib:.1f} MiB, GPX 1.1 from fleetfuel.synth "
               f"(written in {time.perf_counter() - start:.1f} s)")

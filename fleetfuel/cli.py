@@ -183,8 +183,8 @@ def _cmd_forecast(args: argparse.Namespace) -> int:
         result = pipeline.forecast_paths(args.paths, cfg, full=args.full, profile=args.profile,
                                          routes_file=args.routes, work_dir=work, progress=bar.update)
         written = write_outputs(result, out, work, on_progress=bar.update)
-    for path, error in result.failures:
-        print(f"fleetfuel: {path}: {error}", file=sys.stderr)
+    for failed, error in result.failures:
+        print(f"fleetfuel: {failed}: {error}", file=sys.stderr)
     for row in result.fleet_ranking.loc[result.fleet_ranking["rank"] == 1].itertuples(index=False):
         print(f"{row.vehicle_class}: best {row.spec} by {row.ranked_by} ({getattr(row, row.ranked_by):,.0f} "
               f"{result.currency}/year)")

@@ -11,6 +11,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING
 
+import numpy as np
 import pandas as pd
 
 from fleetfuel import clean, cycles, ingest, segment
@@ -85,11 +86,17 @@ class CyclesResult:
     unit: str
 
 
-def _reference_model(name: str, sim_cfg: object) -> tuple[str, str, cycles.FuelModel]:
-    """The catalogue spec ``name`` (file stem of models/ or a TOML path) as a per-row consumption model."""
+def _reference_model(name: str, sim_cfg: SimConfig) -> tuple[str, str, cycles.FuelModel]:
+    """The catalogue spec ``name`` (file stem of models/ or a TOML path) as a per-row consumption model.
+
+    Returns the spec's name, the unit (``L`` of liquid fuel, ``kg`` of gas, ``kWh`` out of the
+    battery) and the model :data:`fleetfuel.cycles.FuelModel` (one simulation per trace).
+    """
+    from fleetfuel.constants import JOULES_PER_KWH
     from fleetfuel.errors import ConfigError
     from fleetfuel.resources import data_dir
     from fleetfuel.simulate import load_spec, simulate_trace
+    from fleetfuel.simulate.trace import G_PER_KG
 
     path = Path(name)
     if path.suffix != ".toml":
@@ -100,14 +107,12 @@ def _reference_model(name: str, sim_cfg: object) -> tuple[str, str, cycles.FuelM
     spec = load_spec(path)
     fuel = spec.fuel
     unit = "kWh" if fuel is None else ("L" if fuel.liquid else "kg")
-    joules_per_kwh = 3.6e6  # SI Brochure: 1 kWh = 3.6 MJ, exact
-    grams_per_kg = 1000.0
 
-    def model(time_s, speed_m_s, grade):  # type: ignore[no-untyped-def]
-        run = simulate_trace(time_s, speed_m_s, grade, spec, cfg=sim_cfg)  # type: ignore[arg-type]
+    def model(time_s: np.ndarray, speed_m_s: np.ndarray, grade: np.ndarray) -> np.ndarray:
+        run = simulate_trace(time_s, speed_m_s, grade, spec, cfg=sim_cfg)
         if fuel is None:
-            return run.steps.battery_power_w * run.weight_s / joules_per_kwh
-        kg = run.steps.fuel_rate_g_s * run.weight_s / grams_per_kg
+            return run.steps.battery_power_w * run.weight_s / JOULES_PER_KWH
+        kg = run.steps.fuel_rate_g_s * run.weight_s / G_PER_KG
         return kg / fuel.density_kg_l if fuel.liquid else kg
 
     return spec.name, unit, model
@@ -164,6 +169,7 @@ def cycles_paths(
 
 if TYPE_CHECKING:  # the forecast stage is imported when its job runs (keeps the other verbs fast)
     from fleetfuel.forecast import ForecastResult, Progress
+    from fleetfuel.simulate.config import SimConfig
 
 WORK_TABLES = ("routes", "missions", "route_forecast")
 """Intermediate tables the forecast job leaves in the work folder (Parquet), besides micro-trips and cycles."""

@@ -282,7 +282,12 @@ def stale_fixes(
 
 
 def position_outliers(
-    time_s: npt.ArrayLike, lat_deg: npt.ArrayLike, lon_deg: npt.ArrayLike, cfg: CleanConfig
+    time_s: npt.ArrayLike,
+    lat_deg: npt.ArrayLike,
+    lon_deg: npt.ArrayLike,
+    cfg: CleanConfig,
+    *,
+    next_m: npt.ArrayLike | None = None,
 ) -> PositionOutliers:
     """Fixes inside position spikes, and fixes that start a lasting position jump.
 
@@ -294,6 +299,9 @@ def position_outliers(
         Valid WGS-84 fixes (NaN where absent; those rows are skipped). [deg]
     cfg : CleanConfig
         ``speed_ceiling_m_s``, ``position_jump_factor``, ``position_noise_m``, ``spike_max_s``.
+    next_m : array_like, optional
+        Geodesic distance from each row's fix to the next row's, where the caller already has it
+        (NaN: not known; computed here). Saves a pass over the track; the result is the same. [m]
 
     Returns
     -------
@@ -311,12 +319,19 @@ def position_outliers(
     t, lat, lon = t_all[have], lat_all[have], lon_all[have]
     jump_speed = cfg.position_jump_factor * cfg.speed_ceiling_m_s
     # Distances between consecutive fixes, once: every pass judges mostly the same neighbours.
-    next_m = geodesic_distance_m(lat[:-1], lon[:-1], lat[1:], lon[1:])
+    step_m = np.full(have.size - 1, np.nan)
+    if next_m is not None:
+        known = np.asarray(next_m, dtype=np.float64)
+        adjacent_rows = np.flatnonzero(np.diff(have) == 1)  # consecutive fixes on consecutive rows
+        step_m[adjacent_rows] = known[have[adjacent_rows]]
+    todo = np.flatnonzero(~np.isfinite(step_m))
+    if todo.size:
+        step_m[todo] = geodesic_distance_m(lat[todo], lon[todo], lat[todo + 1], lon[todo + 1])
 
     def distance(a: IntArray, b: IntArray) -> FloatArray:
         out = np.empty(a.size)
         adjacent = (b - a) == 1
-        out[adjacent] = next_m[a[adjacent]]
+        out[adjacent] = step_m[a[adjacent]]
         other = ~adjacent
         if other.any():
             out[other] = geodesic_distance_m(lat[a[other]], lon[a[other]], lat[b[other]], lon[b[other]])

@@ -120,6 +120,76 @@ def _residual(res_dual: FloatArray, mu1: FloatArray, f1: FloatArray, mu2: FloatA
 
 
 @njit(cache=True)
+def _objectives(dy: FloatArray, z: FloatArray, mu1: FloatArray, mu2: FloatArray, w: FloatArray, sol: FloatArray,
+                dtz: FloatArray, ddtz: FloatArray, lam: float) -> tuple[float, float]:  # pragma: no cover
+    """Primal (the smaller of its two bounds) and dual objective at the current point."""
+    wsol = 0.0
+    musum = 0.0
+    absres = 0.0
+    dyz = 0.0
+    for k in range(dy.size):
+        wsol += w[k] * sol[k]
+        musum += mu1[k] + mu2[k]
+        absres += abs(dy[k] - ddtz[k])
+        dyz += dy[k] * z[k]
+    dtzdtz = 0.0
+    for k in range(dtz.size):
+        dtzdtz += dtz[k] * dtz[k]
+    pobj = min(0.5 * wsol + lam * musum, 0.5 * dtzdtz + lam * absres)
+    return pobj, -0.5 * dtzdtz + dyz
+
+
+@njit(cache=True)
+def _multiplier_step(mu1: FloatArray, mu2: FloatArray, f1: FloatArray, f2: FloatArray, dz: FloatArray, inv_t: float,
+                     dmu1: FloatArray, dmu2: FloatArray) -> float:  # pragma: no cover
+    """Newton directions of the multipliers (``dmu1``, ``dmu2`` written) and the longest step
+    (backed off) that keeps them positive, at most 1."""
+    step = 1.0
+    lim1 = np.inf
+    lim2 = np.inf
+    for k in range(mu1.size):
+        dmu1[k] = -(mu1[k] + (inv_t + dz[k] * mu1[k]) / f1[k])
+        dmu2[k] = -(mu2[k] + (inv_t - dz[k] * mu2[k]) / f2[k])
+        if dmu1[k] < 0:
+            lim1 = min(lim1, -mu1[k] / dmu1[k])
+        if dmu2[k] < 0:
+            lim2 = min(lim2, -mu2[k] / dmu2[k])
+    if lim1 < np.inf:
+        step = min(step, STEP_BACKOFF * lim1)
+    if lim2 < np.inf:
+        step = min(step, STEP_BACKOFF * lim2)
+    return step
+
+
+@njit(cache=True)
+def _line_search(z: FloatArray, mu1: FloatArray, mu2: FloatArray, dz: FloatArray, dmu1: FloatArray,
+                 dmu2: FloatArray, dy: FloatArray, lam: float, inv_t: float, residual: float, step: float,
+                 work: tuple) -> float:  # pragma: no cover
+    """Backtracking on the residual norm; the trial point is left in ``work`` (nz, nmu1, nmu2,
+    nf1, nf2, scratch, scratch). Returns the step after the search (halved once more when no
+    trial point was accepted, as in the reference implementation)."""
+    nz, nmu1, nmu2, nf1, nf2, nres, ndtz = work
+    for _ls in range(MAX_LINE_SEARCH):
+        worst = -np.inf
+        for k in range(z.size):
+            nz[k] = z[k] + step * dz[k]
+            nmu1[k] = mu1[k] + step * dmu1[k]
+            nmu2[k] = mu2[k] + step * dmu2[k]
+            nf1[k] = nz[k] - lam
+            nf2[k] = -nz[k] - lam
+            worst = max(worst, nf1[k], nf2[k])
+        if worst < 0:
+            _dt(nz, ndtz)
+            _d(ndtz, nres)
+            for k in range(z.size):
+                nres[k] = nres[k] - dy[k] + nmu1[k] - nmu2[k]
+            if _residual(nres, nmu1, nf1, nmu2, nf2, inv_t) <= (1 - ALPHA * step) * residual:
+                return step
+        step *= BETA
+    return step
+
+
+@njit(cache=True)
 def dual_solution(y: FloatArray, lam: float) -> FloatArray:  # pragma: no cover
     """Dual variable ``z`` of the l1 trend filter of ``y`` (``y.size >= 3``, ``lam > 0``).
 
@@ -156,20 +226,7 @@ def dual_solution(y: FloatArray, lam: float) -> FloatArray:  # pragma: no cover
         for k in range(m):
             w[k] = dy[k] - (mu1[k] - mu2[k])
         _solve(c0, c1, c2, w, sol)
-        wsol = 0.0
-        musum = 0.0
-        absres = 0.0
-        dyz = 0.0
-        for k in range(m):
-            wsol += w[k] * sol[k]
-            musum += mu1[k] + mu2[k]
-            absres += abs(dy[k] - ddtz[k])
-            dyz += dy[k] * z[k]
-        dtzdtz = 0.0
-        for k in range(m + 2):
-            dtzdtz += dtz[k] * dtz[k]
-        pobj = min(0.5 * wsol + lam * musum, 0.5 * dtzdtz + lam * absres)
-        dobj = -0.5 * dtzdtz + dyz
+        pobj, dobj = _objectives(dy, z, mu1, mu2, w, sol, dtz, ddtz, lam)
         gap = pobj - dobj
         if gap <= REL_GAP * max(1.0, abs(pobj)):
             break
@@ -183,37 +240,9 @@ def dual_solution(y: FloatArray, lam: float) -> FloatArray:  # pragma: no cover
         _factor(diag, u0, u1, u2)
         _solve(u0, u1, u2, rhs, dz)
         residual = _residual(nres, mu1, f1, mu2, f2, inv_t)
-        step = 1.0
-        lim1 = np.inf
-        lim2 = np.inf
-        for k in range(m):
-            dmu1[k] = -(mu1[k] + (inv_t + dz[k] * mu1[k]) / f1[k])
-            dmu2[k] = -(mu2[k] + (inv_t - dz[k] * mu2[k]) / f2[k])
-            if dmu1[k] < 0:
-                lim1 = min(lim1, -mu1[k] / dmu1[k])
-            if dmu2[k] < 0:
-                lim2 = min(lim2, -mu2[k] / dmu2[k])
-        if lim1 < np.inf:
-            step = min(step, STEP_BACKOFF * lim1)
-        if lim2 < np.inf:
-            step = min(step, STEP_BACKOFF * lim2)
-        for _ls in range(MAX_LINE_SEARCH):
-            worst = -np.inf
-            for k in range(m):
-                nz[k] = z[k] + step * dz[k]
-                nmu1[k] = mu1[k] + step * dmu1[k]
-                nmu2[k] = mu2[k] + step * dmu2[k]
-                nf1[k] = nz[k] - lam
-                nf2[k] = -nz[k] - lam
-                worst = max(worst, nf1[k], nf2[k])
-            if worst < 0:
-                _dt(nz, ndtz)
-                _d(ndtz, nres)
-                for k in range(m):
-                    nres[k] = nres[k] - dy[k] + nmu1[k] - nmu2[k]
-                if _residual(nres, nmu1, nf1, nmu2, nf2, inv_t) <= (1 - ALPHA * step) * residual:
-                    break
-            step *= BETA
+        step = _multiplier_step(mu1, mu2, f1, f2, dz, inv_t, dmu1, dmu2)
+        step = _line_search(z, mu1, mu2, dz, dmu1, dmu2, dy, lam, inv_t, residual, step,
+                            (nz, nmu1, nmu2, nf1, nf2, nres, ndtz))
         z, nz = nz, z
         mu1, nmu1 = nmu1, mu1
         mu2, nmu2 = nmu2, mu2

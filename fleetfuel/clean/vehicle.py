@@ -130,7 +130,10 @@ def _screen_rows(
     keep = reason[alive] == ""
     alive, t_s = alive[keep], t_s[keep]
     jump_speed = cfg.position_jump_factor * cfg.speed_ceiling_m_s
-    implied = step_distance_m(lat[alive], lon[alive]) / np.maximum(np.r_[np.inf, np.diff(t_s)], cfg.step_s)
+    back_m = step_distance_m(lat[alive], lon[alive])  # from the previous surviving row's fix [m]
+    implied = back_m / np.maximum(np.r_[np.inf, np.diff(t_s)], cfg.step_s)
+    rank = np.full(n, -1, dtype=np.int64)
+    rank[alive] = np.arange(alive.size)
     fast = np.zeros(n, dtype=bool)
     with np.errstate(invalid="ignore"):
         fast[alive] = (speed[alive] > jump_speed) | (implied > jump_speed)
@@ -140,7 +143,12 @@ def _screen_rows(
     _reject(reason, np.isin(np.arange(n), alive[speed_spikes(t_s, speed[alive], cfg)]), schema.DROP_ACCEL_IMPOSSIBLE)
     keep = reason[alive] == ""
     alive, t_s = alive[keep], t_s[keep]
-    pos = position_outliers(t_s, lat[alive], lon[alive], cfg)
+    # distances already measured between rows still next to each other (lat, lon unchanged since)
+    next_m = np.full(alive.size, np.nan)
+    if alive.size > 1:
+        follows = rank[alive[1:]] - rank[alive[:-1]] == 1
+        next_m[:-1][follows] = back_m[rank[alive[1:]][follows]]
+    pos = position_outliers(t_s, lat[alive], lon[alive], cfg, next_m=next_m)
     spiked = np.zeros(n, dtype=bool)
     spiked[alive[pos.spike]] = True
     _reject(reason, spiked & ~has_speed, schema.DROP_POSITION_JUMP)

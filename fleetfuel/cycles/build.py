@@ -234,7 +234,7 @@ def _build(samples: pd.DataFrame, microtrips: pd.DataFrame, cfg: CyclesConfig, s
         raise CycleError(f"too little driving to form cycles: {exc}") from None
     names = type_names(model.n_types_)
     table["type"] = predict_types(model, columns, table)
-    eligible, step_s = eligible_microtrips(table, samples)
+    eligible, step_s = eligible_microtrips(table, samples, segment_cfg.stop_speed_m_s)
     table["eligible"] = eligible.to_numpy() & table["type"].notna().to_numpy()
     if not table["eligible"].any():
         raise CycleError(

@@ -141,9 +141,9 @@ def random_sets(prob: Problem, rng: np.random.Generator, n: int) -> sparse.csr_m
     chain = np.flatnonzero(rng.random(n) < p_chain)
     rows, cols, base = [np.zeros(0, dtype=np.int64)], [np.zeros(0, dtype=np.int64)], np.zeros(n)
     if chain.size:
-        r, c, dur, valid = _walks(prob, rng, chain.size)
-        rows += [chain[x] for x in r]
-        cols += c
+        walk_rows, walk_cols, dur, valid = _walks(prob, rng, chain.size)
+        rows += [chain[x] for x in walk_rows]
+        cols += walk_cols
         base[chain] = np.where(valid, dur, np.inf)
     shortest = prob.duration[fill].min() if fill.size else cfg.target_duration_s
     width = int(min(fill.size, np.ceil(cfg.target_duration_s * (1 + cfg.duration_tolerance) / shortest) + 1))
@@ -157,11 +157,11 @@ def random_sets(prob: Problem, rng: np.random.Generator, n: int) -> sparse.csr_m
         take = np.take_along_axis(take, np.argsort(np.take_along_axis(keys, take, axis=1), axis=1), axis=1)
         totals = np.concatenate([base[part, None], base[part, None] + np.cumsum(prob.duration[fill[take]], axis=1)], axis=1)
         count = np.argmin(np.abs(totals - cfg.target_duration_s), axis=1)
-        r, c = np.nonzero(np.arange(width)[None, :] < count[:, None])
-        rows.append(r + part.start)
-        cols.append(fill[take[r, c]])
-    r, c = np.concatenate(rows), np.concatenate(cols)
-    x = sparse.csr_matrix((np.ones(r.size), (r, c)), shape=(n, prob.idx.size))
+        at_row, at_col = np.nonzero(np.arange(width)[None, :] < count[:, None])
+        rows.append(at_row + part.start)
+        cols.append(fill[take[at_row, at_col]])
+    all_rows, all_cols = np.concatenate(rows), np.concatenate(cols)
+    x = sparse.csr_matrix((np.ones(all_rows.size), (all_rows, all_cols)), shape=(n, prob.idx.size))
     x.sum_duplicates()
     return x
 

@@ -9,6 +9,7 @@ are flat scalars so that a ``[cycles]`` table of a run TOML maps onto them key b
 from __future__ import annotations
 
 from dataclasses import dataclass, fields
+from datetime import date
 from typing import Final
 
 from fleetfuel.errors import ConfigError
@@ -40,6 +41,33 @@ _SHARE_FIELDS: Final = (
     "fuel_tolerance_route",
     "holdout_tolerance",
 )
+
+
+def _is_iso_date(text: str) -> bool:
+    try:
+        date.fromisoformat(text)
+    except ValueError:
+        return False
+    return len(text) == len("YYYY-MM-DD")
+
+
+def _check_field(name: str, value: object) -> None:
+    """One field's type and range (see :class:`CyclesConfig`)."""
+    if name in _STRING_FIELDS:
+        if not isinstance(value, str) or not value:
+            raise ConfigError(f"cycles.{name}: expected a non-empty string, found {value!r}")
+        return
+    if isinstance(value, bool) or not isinstance(value, int | float):
+        raise ConfigError(f"cycles.{name}: expected a number, found {value!r}")
+    if name in _INT_FIELDS and not isinstance(value, int):
+        raise ConfigError(f"cycles.{name}: expected an integer, found {value!r}")
+    if name == "seed":
+        if value < 0:
+            raise ConfigError(f"cycles.seed: must be >= 0, found {value}")
+    elif not value > 0 and name != "silhouette_tolerance":
+        raise ConfigError(f"cycles.{name}: must be > 0, found {value!r}")
+    if name in _SHARE_FIELDS and not 0 <= value <= 1:
+        raise ConfigError(f"cycles.{name}: must be a share in [0, 1], found {value!r}")
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -167,22 +195,9 @@ class CyclesConfig:
 
     def __post_init__(self) -> None:
         for f in fields(self):
-            value = getattr(self, f.name)
-            if f.name in _STRING_FIELDS:
-                if not isinstance(value, str) or not value:
-                    raise ConfigError(f"cycles.{f.name}: expected a non-empty string, found {value!r}")
-                continue
-            if isinstance(value, bool) or not isinstance(value, int | float):
-                raise ConfigError(f"cycles.{f.name}: expected a number, found {value!r}")
-            if f.name in _INT_FIELDS and not isinstance(value, int):
-                raise ConfigError(f"cycles.{f.name}: expected an integer, found {value!r}")
-            if f.name == "seed":
-                if value < 0:
-                    raise ConfigError(f"cycles.seed: must be >= 0, found {value}")
-            elif not value > 0 and f.name != "silhouette_tolerance":
-                raise ConfigError(f"cycles.{f.name}: must be > 0, found {value!r}")
-            if f.name in _SHARE_FIELDS and not 0 <= value <= 1:
-                raise ConfigError(f"cycles.{f.name}: must be a share in [0, 1], found {value!r}")
+            _check_field(f.name, getattr(self, f.name))
+        if self.holdout_day not in ("last", "none") and not _is_iso_date(self.holdout_day):
+            raise ConfigError(f"cycles.holdout_day: expected last, none or YYYY-MM-DD, found {self.holdout_day!r}")
         if self.min_types < 2:
             raise ConfigError(f"cycles.min_types: must be at least 2, found {self.min_types}")
         if self.max_types < self.min_types:

@@ -2,7 +2,7 @@ r"""The pool of real driving pieces a representative cycle is assembled from.
 
 Pieces are taken from the *eligible* micro-trips: those logged at the fleet's cycle step (the
 time step covering most driving; low-rate logs are typed and weighted but not cut into cycles)
-with every acceleration statistic observable. A micro-trip no longer than
+with every acceleration statistic observable, starting and ending at rest. A micro-trip no longer than
 ``cfg.max_piece_share * cfg.target_duration_s`` is one piece (``whole``). A longer one (a
 motorway or rural run that alone outlasts the cycle) is cut at *splice points* into a ``head``
 (its idle and start up to the first cut), ``window`` pieces (cut to cut) and a ``tail`` (last cut
@@ -134,26 +134,35 @@ def row_motion(samples: pd.DataFrame, segment_cfg: SegmentConfig) -> tuple[Float
     return t, v, np.where(outside, np.nan, kin.accel_m_s2), np.where(outside, 0.0, kin.weight_s)
 
 
-def eligible_microtrips(microtrips: pd.DataFrame, samples: pd.DataFrame) -> tuple[pd.Series, float]:
+def eligible_microtrips(
+    microtrips: pd.DataFrame, samples: pd.DataFrame, stop_speed_m_s: float
+) -> tuple[pd.Series, float]:
     """Which micro-trips cycles may be cut from, and the cycles' time step.
 
     Returns
     -------
     eligible : Series of bool
-        Indexed like ``microtrips``: every acceleration statistic known and every time step
-        equal to the cycle step.
+        Indexed like ``microtrips``: every acceleration statistic known, every time step equal to
+        the cycle step, and first and last sample at rest (below ``stop_speed_m_s`` [m/s]; a log
+        may start or break off while moving), so that pieces join at rest.
     step_s : float
         The time step covering the most driving time (NaN when there is none). [s]
     """
     in_mt = samples[schema.MICROTRIP_ID].notna().to_numpy()
     ids_of_rows = samples[schema.MICROTRIP_ID].to_numpy(dtype=object)[in_mt]
     t = ((samples[schema.TIME_UTC] - pd.Timestamp(0, tz="UTC")) / pd.Timedelta(seconds=1)).to_numpy(np.float64)[in_mt]
+    v = samples[schema.SPEED_M_S].to_numpy(dtype=np.float64, na_value=np.nan)[in_mt]
     same = np.r_[False, ids_of_rows[1:] == ids_of_rows[:-1]]
     gaps = np.where(same, np.r_[np.nan, np.diff(t)], np.nan)
-    step = pd.Series(gaps).groupby(ids_of_rows).max()
+    ends = ~same | ~np.r_[same[1:], False]  # first or last row of a micro-trip
+    moving_end = ends & ~(np.nan_to_num(v, nan=0.0) < stop_speed_m_s)
+    per_mt = pd.DataFrame({"step": gaps, "moving_end": moving_end}).groupby(ids_of_rows).agg(
+        step=("step", "max"), moving_end=("moving_end", "any")
+    )
     ids = microtrips[schema.MICROTRIP_ID]
-    max_step = ids.map(step).to_numpy(dtype=np.float64, na_value=np.nan)
-    known = microtrips[list(ACCEL_STATS)].notna().all(axis=1).to_numpy() & np.isfinite(max_step)
+    max_step = ids.map(per_mt["step"]).to_numpy(dtype=np.float64, na_value=np.nan)
+    at_rest = ~ids.map(per_mt["moving_end"]).fillna(True).to_numpy(dtype=bool)
+    known = microtrips[list(ACCEL_STATS)].notna().all(axis=1).to_numpy() & np.isfinite(max_step) & at_rest
     if not known.any():
         return pd.Series(False, index=microtrips.index), float("nan")
     duration = microtrips["duration_s"].to_numpy(dtype=np.float64)
@@ -289,7 +298,8 @@ def build_pool(
     whole_features = chosen.iloc[at[short]].reset_index(drop=True)
     on_long = is_long[mt]
     long_codes, local = np.unique(mt[on_long], return_inverse=True)
-    meta, features, hists, levels = pd.DataFrame(), pd.DataFrame(), np.zeros((0, mt_safd.shape[1])), {}
+    levels: dict[str, FloatArray] = {}
+    meta, features, hists = pd.DataFrame(), pd.DataFrame(), np.zeros((0, mt_safd.shape[1]))
     if on_long.any():
         meta, features, hists, levels = _cut_pieces(
             samples, pos[on_long], local.astype(np.int64), mt_ids[long_codes], row_type[on_long], motion,

@@ -42,7 +42,7 @@ def safd_edges(cfg: CyclesConfig) -> tuple[FloatArray, FloatArray]:
     n_accel = int(np.ceil(cfg.safd_max_accel_m_s2 / cfg.safd_accel_bin_m_s2))
     speed = np.arange(n_speed + 1) * cfg.safd_speed_bin_m_s
     accel = (np.arange(2 * n_accel + 1) - n_accel) * cfg.safd_accel_bin_m_s2
-    return speed, accel
+    return speed.astype(np.float64), accel.astype(np.float64)
 
 
 def safd_shape(cfg: CyclesConfig) -> tuple[int, int]:
@@ -75,7 +75,7 @@ def safd_counts(
     v = np.nan_to_num(speed_m_s[keep], nan=0.0)
     flat = group[keep] * n_cells + _cell(v, accel_m_s2[keep], cfg)
     counts = np.bincount(flat, weights=weight_s[keep], minlength=n_groups * n_cells)
-    return counts.reshape(n_groups, n_cells)
+    return counts.reshape(n_groups, n_cells).astype(np.float64)
 
 
 def safd_of_trace(

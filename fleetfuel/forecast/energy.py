@@ -82,6 +82,8 @@ def _drawn_kwh(spec: VehicleSpec, run: SimResult, cfg: SimConfig, deepest: bool)
         return float("nan")
     soc0 = spec.battery.initial_soc if cfg.initial_soc is None else cfg.initial_soc
     soc = run.totals.soc_min if deepest else run.totals.soc_end
+    if soc is None:  # an electric run always carries its state of charge
+        return float("nan")
     return float((soc0 - soc) * spec.battery.usable_kwh)
 
 

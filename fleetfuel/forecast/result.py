@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass, fields
+from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
 import pandas as pd
@@ -70,8 +70,7 @@ class ForecastResult:
 
 def _origin(cfg: ForecastConfig, name: str, source: str, key: str | None = None) -> str:
     """``"config"`` when the field (or its entry ``key``) differs from its default, else ``"default: <source>"``."""
-    default = {f.name: f for f in fields(ForecastConfig)}[name]
-    value = default.default_factory() if callable(default.default_factory) else default.default  # type: ignore[misc]
+    value = getattr(ForecastConfig(), name)
     given = getattr(cfg, name)
     if key is not None:
         value, given = value.get(key), given.get(key)
@@ -89,8 +88,8 @@ def assumption_list(cfg: ForecastConfig, missions: pd.DataFrame, full: bool, cat
         out[f"Price of {fuel}"] = f"{price:g} {cur}/kg ({_origin(cfg, 'fuel_price_per_kg', 'common practice, no source', fuel)})"
     out["Price of electricity"] = (f"{cfg.electricity_price_per_kwh:g} {cur}/kWh from the grid ("
                                    f"{_origin(cfg, 'electricity_price_per_kwh', 'Eurostat nrg_pc_205, EU-27 2024-S1 band ID excl. VAT, from memory')})")
-    for fuel in FUELS.values():
-        out[f"CO2 tank to wheel, {fuel.name}"] = f"{fuel.co2_kg_per_kg:.3f} kg/kg ({fuel.source})"
+    for props in FUELS.values():
+        out[f"CO2 tank to wheel, {props.name}"] = f"{props.co2_kg_per_kg:.3f} kg/kg ({props.source})"
     for fuel, g in cfg.wtt_co2_g_per_mj.items():
         out[f"CO2 well to tank, {fuel}"] = f"{g:g} g/MJ ({_origin(cfg, 'wtt_co2_g_per_mj', 'JEC WTW v5 (2020), from memory', fuel)})"
     out["CO2 of grid electricity"] = (f"{cfg.grid_co2_kg_per_kwh:g} kg/kWh ("

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from collections.abc import Callable, Sequence
-from typing import Final
+from typing import Any, Final
 
 import numpy as np
 import pandas as pd
@@ -100,7 +100,7 @@ class _Cache:
         return self.envelopes[key, payload]
 
 
-def _cell(mission: dict[str, object], key: str, spec: VehicleSpec, energy: RouteEnergy | None, envelope: Envelope | None,
+def _cell(mission: dict[str, Any], key: str, spec: VehicleSpec, energy: RouteEnergy | None, envelope: Envelope | None,
           payload: float, reasons: list[str], cfg: ForecastConfig) -> dict[str, object]:
     figures = annual_figures(spec, energy, float(mission["annual_km"]), float(mission["vehicles_in_service"]), cfg)
     nan = float("nan")

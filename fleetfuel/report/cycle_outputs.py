@@ -69,8 +69,8 @@ def _plain(value: Any) -> Any:
     return value
 
 
-def _csv(frame: pd.DataFrame) -> str:
-    return frame.to_csv(index=False, float_format=FLOAT_FORMAT, lineterminator="\n")
+def _csv(frame: pd.DataFrame, float_format: str | None = FLOAT_FORMAT) -> str:
+    return frame.to_csv(index=False, float_format=float_format, lineterminator="\n")
 
 
 def _check_row(row: pd.Series) -> dict[str, Any]:
@@ -148,7 +148,8 @@ def write_cycle_outputs(
     cfg = cfg or CyclesConfig()
     written = []
     for name, trace in cycleset.cycles.items():
-        written.append(write_text_atomic(out / cycle_file_name(name), _csv(trace[list(CYCLE_CSV_COLUMNS)])))
+        # full precision: accelerations of the file (differences) keep their driving modes
+        written.append(write_text_atomic(out / cycle_file_name(name), _csv(trace[list(CYCLE_CSV_COLUMNS)], None)))
     route_cols = [c for c in ROUTE_COLUMNS if c in routes.columns]
     tables = {
         "types.csv": cycleset.types,

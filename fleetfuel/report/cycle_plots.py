@@ -88,8 +88,9 @@ def plot_safd(
         FigureCanvasAgg(figure)
         axes = figure.subplots(1, 2, sharey=True)
     else:
-        figure = axes[0].get_figure()
-        assert isinstance(figure, Figure)
+        parent = axes[0].get_figure()
+        assert isinstance(parent, Figure)
+        figure = parent
     speed = np.asarray(edges[0], dtype=float) * KMH_PER_M_S
     accel = np.asarray(edges[1], dtype=float)
     maps = [np.asarray(type_safd, dtype=float), np.asarray(cycle_safd, dtype=float)]
@@ -166,10 +167,12 @@ def plot_route_ends(routes: pd.DataFrame, *, ax: Axes | None = None) -> Figure:
     figure, ax = _figure(ax, ROUTES_SIZE_IN)
     cols = ["end_a_lon_deg", "end_a_lat_deg", "end_b_lon_deg", "end_b_lat_deg"]
     known = routes.loc[routes[cols].notna().all(axis=1).to_numpy()]
-    for row in known.itertuples(index=False):  # one line per route (a few dozen), not per sample
-        xa, ya, xb, yb = (float(getattr(row, c)) for c in cols)
+    # Routes sharing their end points (loops from one depot) get one line and one joined label.
+    for ends, group in known.groupby(cols, sort=True):  # a few dozen routes, not samples
+        xa, ya, xb, yb = (float(v) for v in ends)
         ax.plot([xa, xb], [ya, yb], marker="o", lw=1.5, alpha=0.8)
-        ax.annotate(str(row.route), ((xa + xb) / 2, (ya + yb) / 2), fontsize="small")
+        ax.annotate(", ".join(map(str, group["route"])), ((xa + xb) / 2, (ya + yb) / 2), fontsize="small",
+                    xytext=(4, 4), textcoords="offset points")
     if len(known):
         mid_lat = float(np.nanmean(known[["end_a_lat_deg", "end_b_lat_deg"]].to_numpy(dtype=float)))
         ax.set_aspect(1.0 / max(np.cos(np.radians(mid_lat)), 1e-3))  # equirectangular: metres alike

@@ -8,9 +8,22 @@ import pytest
 from cycle_frames import KMH, cycle, noisy_replicas, reference_classes
 
 from fleetfuel import schema, segment
-from fleetfuel.cycles import CyclesConfig, describe_type, label_types, safd_difference, safd_of_trace, type_weights
+from fleetfuel.cycles import (
+    CyclesConfig,
+    describe_type,
+    label_types,
+    safd_difference,
+    safd_of_trace,
+    type_weights,
+)
 from fleetfuel.cycles.safd import safd_edges
-from fleetfuel.cycles.stats import TARGET_STATS, additive_sums, normalised_errors, stats_from_sums, with_derived
+from fleetfuel.cycles.stats import (
+    TARGET_STATS,
+    additive_sums,
+    normalised_errors,
+    stats_from_sums,
+    with_derived,
+)
 
 
 def test_sums_of_microtrips_give_the_group_statistics_of_the_segment_stage() -> None:

@@ -8,14 +8,21 @@ import pandas as pd
 import pytest
 
 from fleetfuel.errors import ConfigError
-from fleetfuel.forecast import ForecastConfig, annual_figures, annualised_capital, fleet_ranking, route_best, savings
+from fleetfuel.forecast import (
+    ForecastConfig,
+    annual_figures,
+    annualised_capital,
+    fleet_ranking,
+    route_best,
+    savings,
+)
 from fleetfuel.forecast.energy import RouteEnergy
 from fleetfuel.forecast.grade import sustained_grades
 from fleetfuel.forecast.mission import route_classes
 from fleetfuel.forecast.ranking import QUANTITIES
+from fleetfuel.resources import data_dir
 from fleetfuel.simulate import load_spec
 from fleetfuel.simulate.spec import Cost
-from fleetfuel.resources import data_dir
 
 
 def _energy(fuel_l_per_km: float, fuel_kg_per_km: float, grid_kwh_per_km: float = 0.0) -> RouteEnergy:
