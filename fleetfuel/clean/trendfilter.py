@@ -29,7 +29,7 @@ from numba import njit
 FloatArray = npt.NDArray[np.float64]
 
 # Interior-point settings of Kim et al. (2009), their reference implementation's values.
-ALPHA: Final = 0.01  # backtracking sufficient-decrease parameter
+SUFFICIENT_DECREASE: Final = 0.01  # backtracking sufficient-decrease parameter
 BETA: Final = 0.5  # backtracking step shrink
 MU: Final = 2.0  # barrier update factor
 MAX_ITER: Final = 80
@@ -183,7 +183,7 @@ def _line_search(z: FloatArray, mu1: FloatArray, mu2: FloatArray, dz: FloatArray
             _d(ndtz, nres)
             for k in range(z.size):
                 nres[k] = nres[k] - dy[k] + nmu1[k] - nmu2[k]
-            if _residual(nres, nmu1, nf1, nmu2, nf2, inv_t) <= (1 - ALPHA * step) * residual:
+            if _residual(nres, nmu1, nf1, nmu2, nf2, inv_t) <= (1 - SUFFICIENT_DECREASE * step) * residual:
                 return step
         step *= BETA
     return step

@@ -28,25 +28,13 @@ import pandas as pd
 
 from fleetfuel.cycles.config import CyclesConfig
 from fleetfuel.segment.config import METRES_PER_KM
+from fleetfuel.segment.features import FEATURE_COLUMNS
 
 FloatArray = npt.NDArray[np.float64]
 
+_SIZE_FEATURES: Final = ("duration_s", "distance_m", "max_speed_m_s")
 TARGET_STATS: Final = (
-    "mean_speed_m_s",
-    "mean_running_speed_m_s",
-    "speed_std_m_s",
-    "idle_share",
-    "accel_share",
-    "cruise_share",
-    "decel_share",
-    "stops_per_km",
-    "mean_pos_accel_m_s2",
-    "mean_neg_accel_m_s2",
-    "rms_accel_m_s2",
-    "rpa_m_s2",
-    "pke_m_s2",
-    "mean_abs_grade",
-    "climb_m_per_km",
+    *(name for name in FEATURE_COLUMNS if name not in _SIZE_FEATURES),
     "net_climb_m_per_km",
 )
 r"""Statistics a representative cycle must match (definitions in :mod:`fleetfuel.segment.features`).

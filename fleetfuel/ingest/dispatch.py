@@ -76,14 +76,8 @@ def _head(path: Path) -> bytes:
     try:
         with path.open("rb") as handle:
             return handle.read(_HEAD_BYTES)
-    except FileNotFoundError as exc:
-        raise InputDataError(f"{path}: file not found") from exc
-    except IsADirectoryError as exc:
-        raise InputDataError(f"{path}: is a directory") from exc
-    except PermissionError as exc:
-        raise InputDataError(f"{path}: permission denied") from exc
     except OSError as exc:
-        raise InputDataError(f"{path}: cannot read ({exc.strerror or exc})") from exc
+        raise sniff.read_error(path, exc) from exc
 
 
 def sniff_format(path: Path) -> str:

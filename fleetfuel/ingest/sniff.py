@@ -38,6 +38,17 @@ _MAGIC: Final = (
 CSV_MEMBER_SUFFIXES: Final = (".csv", ".tsv", ".txt", ".csv.gz")
 
 
+def read_error(path: Path, exc: OSError) -> InputDataError:
+    """The one-line input error for an operating-system failure reading ``path``."""
+    if isinstance(exc, FileNotFoundError):
+        return InputDataError(f"{path}: file not found")
+    if isinstance(exc, IsADirectoryError):
+        return InputDataError(f"{path}: is a directory")
+    if isinstance(exc, PermissionError):
+        return InputDataError(f"{path}: permission denied")
+    return InputDataError(f"{path}: cannot read ({exc.strerror or exc})")
+
+
 def split_member(path: Path | str) -> tuple[Path, str | None]:
     """``archive.zip!dir/a.csv`` -> (``archive.zip``, ``dir/a.csv``); a plain path -> (path, None)."""
     text = str(path)
@@ -113,14 +124,8 @@ def read_bytes(path: Path | str, limit: int) -> bytes:
             if size > limit:
                 raise InputDataError(f"{path}: file is {size} bytes, over the limit {limit}")
             data = archive.read_bytes()
-        except FileNotFoundError as exc:
-            raise InputDataError(f"{path}: file not found") from exc
-        except IsADirectoryError as exc:
-            raise InputDataError(f"{path}: is a directory") from exc
-        except PermissionError as exc:
-            raise InputDataError(f"{path}: permission denied") from exc
         except OSError as exc:
-            raise InputDataError(f"{path}: cannot read ({exc.strerror or exc})") from exc
+            raise read_error(path, exc) from exc
     if data[:2] == b"\x1f\x8b":
         data = _gunzip(path, data, limit)
     return data

@@ -6,6 +6,14 @@ import os
 import tempfile
 from pathlib import Path
 
+_FILE_MODE = 0o666
+
+
+def _current_umask() -> int:
+    mask = os.umask(0)
+    os.umask(mask)
+    return mask
+
 
 def write_text_atomic(path: Path, text: str) -> Path:
     """Write ``text`` (UTF-8) to ``path`` through a temporary file in the same folder, then rename."""
@@ -19,6 +27,7 @@ def write_bytes_atomic(path: Path, data: bytes) -> Path:
     try:
         with os.fdopen(fd, "wb") as handle:
             handle.write(data)
+        os.chmod(tmp, _FILE_MODE & ~_current_umask())  # mkstemp makes 0600; outputs are shared files
         os.replace(tmp, path)
     except BaseException:
         Path(tmp).unlink(missing_ok=True)

@@ -21,7 +21,7 @@ DPI: Final = 96
 BAR_HEIGHT: Final = 0.8
 FUEL_MAP_LEVELS: Final = 12
 POINT_SIZE: Final = 4.0
-POINT_ALPHA: Final = 0.3
+POINT_OPACITY: Final = 0.3
 KMH_PER_M_S: Final = 3.6  # NIST SP 811: 1 km/h = 1/3.6 m/s, exact
 RANK_VALUE_COLUMNS: Final = ("tco_per_year", "energy_cost_per_year")
 
@@ -119,7 +119,7 @@ def route_consumption_bars(
         feasible = rows["feasible"].fillna(True).to_numpy(dtype=bool)
         for offset, value, ok, spec in zip(offsets, values, feasible, rows["spec"], strict=True):
             ax.bar(i + offset, value, width=width, color=colours[spec], hatch=hatches[spec],
-                   alpha=1.0 if ok else POINT_ALPHA, label=None if spec in labelled else spec)
+                   alpha=1.0 if ok else POINT_OPACITY, label=None if spec in labelled else spec)
             labelled.add(spec)
     ax.set_xticks(np.arange(len(routes)), routes, rotation=30, ha="right")
     label = CONSUMPTION_LABELS.get(column, column)
@@ -213,7 +213,7 @@ def fuel_map_points(
     grid = np.asarray(map_fuel_g_s, dtype=float)
     contours = ax.contour(map_speed_rpm, map_torque_nm, grid, levels=FUEL_MAP_LEVELS, cmap="viridis")
     ax.clabel(contours, fontsize="x-small")
-    ax.scatter(engine_speed_rpm, torque_nm, s=POINT_SIZE, alpha=POINT_ALPHA, color="tab:red", label="operation")
+    ax.scatter(engine_speed_rpm, torque_nm, s=POINT_SIZE, alpha=POINT_OPACITY, color="tab:red", label="operation")
     # the view is the map: motoring (negative torque) and points off the map stay out of sight
     ax.set_xlim(float(np.min(map_speed_rpm)), float(np.max(map_speed_rpm)))
     ax.set_ylim(min(0.0, float(np.min(map_torque_nm))), float(np.max(map_torque_nm)))
