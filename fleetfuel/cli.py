@@ -123,6 +123,7 @@ def _add_cycles(sub: argparse._SubParsersAction) -> None:
     p.add_argument("--json", action="store_true", help="print the summary as JSON")
     p.add_argument("--profile", help="force an ingest profile: a bundled NAME or a PATH to a TOML file")
     p.add_argument("--routes", help="routes file (CSV or TOML) mapping vehicles and times to routes")
+    p.add_argument("--config", help="run configuration TOML ([cycles], [segment], [clean] ...); flags override it")
     p.add_argument("--target-min", type=float, help="duration of each cycle [min] (default 20)")
     p.add_argument("--min-types", type=int, help="fewest duty-cycle types to try (default 2)")
     p.add_argument("--max-types", type=int, help="most duty-cycle types to try (default 8)")
@@ -139,14 +140,16 @@ def _cmd_cycles(args: argparse.Namespace) -> int:
     from pathlib import Path
 
     from fleetfuel import pipeline
-    from fleetfuel.cycles import CyclesConfig
+    from fleetfuel.config import load_run_config
     from fleetfuel.report.cycle_outputs import cycles_summary, cycles_text, write_cycle_outputs
 
+    run_cfg = load_run_config(Path(args.config) if args.config else None)
     flags = {"target_duration_s": None if args.target_min is None else args.target_min * 60.0,
              "min_types": args.min_types, "max_types": args.max_types, "seed": args.seed,
              "reference_spec": args.spec, "holdout_day": args.holdout_day}
-    cfg = dataclasses.replace(CyclesConfig(), **{k: v for k, v in flags.items() if v is not None})
-    result = pipeline.cycles_paths(args.paths, cycles_cfg=cfg, profile=args.profile, routes_file=args.routes)
+    cfg = dataclasses.replace(run_cfg.cycles, **{k: v for k, v in flags.items() if v is not None})
+    result = pipeline.cycles_paths(args.paths, run_cfg, cycles_cfg=cfg, profile=args.profile,
+                                   routes_file=args.routes)
     parts = (result.cycles, result.routes, result.fuel_check, result.holdout, result.reference_spec, result.unit)
     write_cycle_outputs(Path(args.out), *parts, cfg, plots=not args.no_plots)
     print(json.dumps(cycles_summary(*parts), indent=2) if args.json else cycles_text(*parts, out=args.out))

@@ -18,6 +18,7 @@ from pathlib import Path
 from typing import Any, TypeVar
 
 from fleetfuel.clean.config import CleanConfig
+from fleetfuel.cycles.config import CyclesConfig
 from fleetfuel.errors import ConfigError
 from fleetfuel.forecast.config import ForecastConfig
 from fleetfuel.ingest.config import IngestConfig
@@ -34,6 +35,7 @@ class RunConfig:
     ingest: IngestConfig = field(default_factory=IngestConfig)
     clean: CleanConfig = field(default_factory=CleanConfig)
     segment: SegmentConfig = field(default_factory=SegmentConfig)
+    cycles: CyclesConfig = field(default_factory=CyclesConfig)
     simulate: SimConfig = field(default_factory=SimConfig)
     forecast: ForecastConfig = field(default_factory=ForecastConfig)
 

@@ -138,8 +138,7 @@ def cycles_paths(
     from fleetfuel.errors import CycleError
 
     cfg = cfg or RunConfig()
-    # RunConfig gains a ``cycles`` section when the lead adds it; until then the defaults apply.
-    cycles_cfg = cycles_cfg or getattr(cfg, "cycles", None) or cycles.CyclesConfig()
+    cycles_cfg = cycles_cfg or cfg.cycles
     inspected = inspect_paths(paths, cfg, profile=profile)
     if inspected.samples.empty:
         why = f" ({inspected.failures[0].path}: {inspected.failures[0].error})" if inspected.failures else ""
@@ -221,7 +220,7 @@ def forecast_inputs(
     from fleetfuel.errors import CycleError, InputDataError
 
     cfg = cfg or RunConfig()
-    cycles_cfg = getattr(cfg, "cycles", None) or cycles.CyclesConfig()
+    cycles_cfg = cfg.cycles
 
     def step(done: int) -> None:
         if progress is not None:

@@ -51,3 +51,13 @@ def test_bad_toml_is_one_line(tmp_path: Path) -> None:
     with pytest.raises(ConfigError) as info:
         load_run_config(path)
     assert "\n" not in str(info.value) and "run.toml" in str(info.value)
+
+
+def test_cycles_section_is_read_and_checked(tmp_path: Path) -> None:
+    path = tmp_path / "run.toml"
+    path.write_text("[cycles]\nseed = 7\nmax_types = 5\n", encoding="utf-8")
+    cfg = load_run_config(path)
+    assert (cfg.cycles.seed, cfg.cycles.max_types) == (7, 5)
+    path.write_text("[cycles]\nseeds = 7\n", encoding="utf-8")
+    with pytest.raises(ConfigError, match=r"\[cycles\]: unknown key 'seeds'"):
+        load_run_config(path)
