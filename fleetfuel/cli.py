@@ -10,9 +10,13 @@ from __future__ import annotations
 import argparse
 import sys
 from collections.abc import Callable, Sequence
+from typing import TYPE_CHECKING
 
 from fleetfuel import __version__
 from fleetfuel.errors import FleetFuelError
+
+if TYPE_CHECKING:
+    from fleetfuel.config import RunConfig
 
 EXIT_OK = 0
 EXIT_NO_USABLE_INPUT = 3
@@ -21,12 +25,41 @@ EXIT_SOME_INPUT_FAILED = 7  # with --strict
 Command = Callable[[argparse.Namespace], int]
 
 
+def _add_engine_flags(p: argparse.ArgumentParser, work_help: str) -> None:
+    g = p.add_argument_group("engine (where the per-partition work runs)")
+    g.add_argument("--engine", choices=("local", "processes", "dask"),
+                   help="local: this process (default); processes: a pool of worker processes; dask: a Dask cluster")
+    g.add_argument("--workers", type=int, help="worker processes (processes, or a local Dask cluster); default 1")
+    g.add_argument("--scheduler", help="join the Dask cluster at this address (tcp://host:8786) instead of starting one")
+    g.add_argument("--work", help=work_help)
+    g.add_argument("--resume", action="store_true",
+                   help="keep the partitions an earlier run of the same inputs and settings finished in --work")
+
+
+def _run_config(args: argparse.Namespace) -> RunConfig:
+    """The run configuration of ``--config`` (defaults without it), with the engine flags applied."""
+    import dataclasses
+    from pathlib import Path
+
+    from fleetfuel.config import load_run_config
+
+    cfg = load_run_config(Path(args.config) if getattr(args, "config", None) else None)
+    flags = {"kind": "dask" if args.scheduler and not args.engine else args.engine, "workers": args.workers,
+             "scheduler": args.scheduler, "resume": True if args.resume else None}
+    engine = dataclasses.replace(cfg.engine, **{k: v for k, v in flags.items() if v is not None})
+    if args.workers and not args.engine and engine.kind == "local" and args.workers > 1:
+        engine = dataclasses.replace(engine, kind="processes")
+    return dataclasses.replace(cfg, engine=engine)
+
+
 def _add_inspect(sub: argparse._SubParsersAction) -> None:
     p = sub.add_parser("inspect", help="read and clean logs; print a per-file data-quality table")
     p.add_argument("paths", nargs="+", help="log files, folders (searched recursively) or globs")
     p.add_argument("--profile", help="force an ingest profile: a bundled NAME or a PATH to a TOML file")
     p.add_argument("--json", action="store_true", help="print the table as JSON")
     p.add_argument("--strict", action="store_true", help="non-zero exit when any file failed")
+    p.add_argument("--config", help="run configuration TOML ([ingest], [clean], [segment], [engine] ...)")
+    _add_engine_flags(p, "work folder for the cleaned Parquet dataset (default: a temporary folder, removed)")
     p.set_defaults(func=_cmd_inspect)
 
 
@@ -34,7 +67,8 @@ def _cmd_inspect(args: argparse.Namespace) -> int:
     from fleetfuel import pipeline
     from fleetfuel.report import quality
 
-    result = pipeline.inspect_paths(args.paths, profile=args.profile)
+    result = pipeline.inspect_paths(args.paths, _run_config(args), profile=args.profile, work_dir=args.work,
+                                    keep_samples=False)
     print(quality.account_json(result.account) if args.json else quality.account_text(result.account))
     for failure in result.failures:
         print(f"fleetfuel: {failure.path}: {failure.error}", file=sys.stderr)
@@ -131,6 +165,7 @@ def _add_cycles(sub: argparse._SubParsersAction) -> None:
     p.add_argument("--spec", help="reference spec of the fuel check: a models/ file stem or a TOML path")
     p.add_argument("--holdout-day", help="day held out for the prediction check: last (default), none or YYYY-MM-DD")
     p.add_argument("--no-plots", action="store_true", help="skip the PNG plots")
+    _add_engine_flags(p, "work folder for the cleaned Parquet dataset (default: a hidden .work folder inside --out)")
     p.set_defaults(func=_cmd_cycles)
 
 
@@ -140,16 +175,16 @@ def _cmd_cycles(args: argparse.Namespace) -> int:
     from pathlib import Path
 
     from fleetfuel import pipeline
-    from fleetfuel.config import load_run_config
     from fleetfuel.report.cycle_outputs import cycles_summary, cycles_text, write_cycle_outputs
 
-    run_cfg = load_run_config(Path(args.config) if args.config else None)
+    run_cfg = _run_config(args)
     flags = {"target_duration_s": None if args.target_min is None else args.target_min * 60.0,
              "min_types": args.min_types, "max_types": args.max_types, "seed": args.seed,
              "reference_spec": args.spec, "holdout_day": args.holdout_day}
     cfg = dataclasses.replace(run_cfg.cycles, **{k: v for k, v in flags.items() if v is not None})
+    work = Path(args.work) if args.work else Path(args.out) / ".work"
     result = pipeline.cycles_paths(args.paths, run_cfg, cycles_cfg=cfg, profile=args.profile,
-                                   routes_file=args.routes)
+                                   routes_file=args.routes, work_dir=work)
     parts = (result.cycles, result.routes, result.fuel_check, result.holdout, result.reference_spec, result.unit)
     write_cycle_outputs(Path(args.out), *parts, cfg, plots=not args.no_plots)
     print(json.dumps(cycles_summary(*parts), indent=2) if args.json else cycles_text(*parts, out=args.out))
@@ -162,12 +197,12 @@ def _add_forecast(sub: argparse._SubParsersAction) -> None:
     p = sub.add_parser("forecast", help="per-route fuel, energy, cost and CO2 of candidate specs; rank them")
     p.add_argument("paths", nargs="+", help="log files, folders (searched recursively) or globs")
     p.add_argument("--out", required=True, help="output folder (tables, workbook, plots, report.html)")
-    p.add_argument("--work", help="folder for intermediate data (default: a hidden .work folder inside --out)")
     p.add_argument("--config", help="run configuration TOML ([forecast] prices, payloads, current specs ...)")
     p.add_argument("--full", action="store_true", help="simulate every route on its own logs, not on the cycles")
     p.add_argument("--routes", help="routes file (CSV or TOML): vehicles and times -> routes, payload, planned km")
     p.add_argument("--profile", help="force an ingest profile: a bundled NAME or a PATH to a TOML file")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
+    _add_engine_flags(p, "folder for intermediate data (default: a hidden .work folder inside --out)")
     p.set_defaults(func=_cmd_forecast)
 
 
@@ -175,11 +210,10 @@ def _cmd_forecast(args: argparse.Namespace) -> int:
     from pathlib import Path
 
     from fleetfuel import pipeline
-    from fleetfuel.config import load_run_config
     from fleetfuel.report.outputs import write_outputs
     from fleetfuel.report.progress import ProgressBar
 
-    cfg = load_run_config(Path(args.config) if args.config else None)
+    cfg = _run_config(args)
     out = Path(args.out)
     work = Path(args.work) if args.work else out / ".work"
     with ProgressBar(label="forecast", quiet=args.quiet) as bar:

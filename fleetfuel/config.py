@@ -19,6 +19,7 @@ from typing import Any, TypeVar
 
 from fleetfuel.clean.config import CleanConfig
 from fleetfuel.cycles.config import CyclesConfig
+from fleetfuel.engine.config import EngineConfig
 from fleetfuel.errors import ConfigError
 from fleetfuel.forecast.config import ForecastConfig
 from fleetfuel.ingest.config import IngestConfig
@@ -38,6 +39,7 @@ class RunConfig:
     cycles: CyclesConfig = field(default_factory=CyclesConfig)
     simulate: SimConfig = field(default_factory=SimConfig)
     forecast: ForecastConfig = field(default_factory=ForecastConfig)
+    engine: EngineConfig = field(default_factory=EngineConfig)
 
 
 def _coerce(value: Any, annotation: Any, where: str) -> Any:

@@ -6,7 +6,9 @@ Each job builds its stage configs, runs the stages in order and returns a frozen
 from __future__ import annotations
 
 import dataclasses
-from collections.abc import Sequence
+import tempfile
+from collections.abc import Iterator, Sequence
+from contextlib import ExitStack, contextmanager
 from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING
@@ -14,8 +16,11 @@ from typing import TYPE_CHECKING
 import numpy as np
 import pandas as pd
 
-from fleetfuel import clean, cycles, ingest, segment
+from fleetfuel import cycles, schema, segment
+from fleetfuel.clean.vehicle import empty_clean_frame
 from fleetfuel.config import RunConfig
+from fleetfuel.engine.executors import Engine, make_engine
+from fleetfuel.engine.stream import PreparedFleet, clean_columns, prepare_fleet
 from fleetfuel.ingest.base import FileFailure
 from fleetfuel.report import quality
 
@@ -34,20 +39,67 @@ class InspectResult:
         return quality.usable_files(self.account)
 
 
+@contextmanager
+def prepared(
+    paths: Sequence[str | Path], cfg: RunConfig, work_dir: str | Path | None = None, engine: Engine | None = None
+) -> Iterator[PreparedFleet]:
+    """Read, clean and segment ``paths`` partition by partition (:func:`fleetfuel.engine.prepare_fleet`).
+
+    ``work_dir`` None: a temporary work folder, removed on exit. ``engine`` None: the engine
+    ``cfg.engine`` names, started here and closed on exit.
+    """
+    with ExitStack() as stack:
+        if work_dir is None:
+            work_dir = stack.enter_context(tempfile.TemporaryDirectory(prefix="fleetfuel-work-"))
+        if engine is None:
+            engine = stack.enter_context(make_engine(cfg.engine))
+        yield prepare_fleet(paths, cfg, work_dir, engine)
+
+
+def _with_profile(cfg: RunConfig | None, profile: str | None) -> RunConfig:
+    cfg = cfg or RunConfig()
+    if profile is not None:
+        cfg = dataclasses.replace(cfg, ingest=dataclasses.replace(cfg.ingest, profile=profile))
+    return cfg
+
+
 def inspect_paths(
-    paths: Sequence[str | Path], cfg: RunConfig | None = None, *, profile: str | None = None
+    paths: Sequence[str | Path],
+    cfg: RunConfig | None = None,
+    *,
+    profile: str | None = None,
+    work_dir: str | Path | None = None,
+    engine: Engine | None = None,
+    keep_samples: bool = True,
 ) -> InspectResult:
     """Read, clean and account for every file under ``paths`` (files, folders, globs).
 
     Never raises for a bad input file: it appears in ``failures`` and in the account with its
-    one-line error.
+    one-line error. ``keep_samples=False`` leaves the clean samples in the work folder only (an
+    empty frame in the result): memory then stays bounded by one partition per worker.
     """
-    cfg = cfg or RunConfig()
-    if profile is not None:
-        cfg = dataclasses.replace(cfg, ingest=dataclasses.replace(cfg.ingest, profile=profile))
-    batch = ingest.read_logs(paths, cfg.ingest)
-    cleaned = clean.clean_batch(batch, cfg.clean)
-    return InspectResult(samples=cleaned.samples, account=cleaned.account, failures=batch.failures)
+    cfg = _with_profile(cfg, profile)
+    with prepared(paths, cfg, work_dir, engine) as fleet:
+        samples = clean_columns(fleet.samples()) if keep_samples else empty_clean_frame()
+        return InspectResult(samples=samples, account=fleet.account, failures=fleet.failures)
+
+
+def _segmented(fleet: PreparedFleet, cfg: RunConfig, routes_file: str | Path | None
+               ) -> tuple[pd.DataFrame, pd.DataFrame, pd.DataFrame]:
+    """Samples with routes, the route table and the micro-trip features with routes, of a prepared fleet."""
+    samples, routes = segment.assign_routes(fleet.samples(), fleet.trips if len(fleet.trips) else None,
+                                            cfg.segment, routes_file)
+    features = fleet.features
+    if len(features):
+        in_trip = samples.loc[samples[schema.TRIP_ID].notna().to_numpy(), [schema.TRIP_ID, schema.ROUTE, schema.ROUTE_SOURCE]]
+        by_trip = in_trip.drop_duplicates(schema.TRIP_ID).set_index(schema.TRIP_ID)
+        features = features.assign(**{
+            name: features[schema.TRIP_ID].map(by_trip[name]).astype("string") for name in (schema.ROUTE, schema.ROUTE_SOURCE)
+        })
+        head = [schema.VEHICLE_ID, schema.PERIOD_ID, schema.TRIP_ID, schema.MICROTRIP_ID, "start_utc", "end_utc",
+                schema.ROUTE, schema.ROUTE_SOURCE]
+        features = features[head + [c for c in features.columns if c not in head]]
+    return samples, routes, features
 
 
 @dataclass(frozen=True, slots=True)
@@ -125,6 +177,8 @@ def cycles_paths(
     cycles_cfg: cycles.CyclesConfig | None = None,
     profile: str | None = None,
     routes_file: str | Path | None = None,
+    work_dir: str | Path | None = None,
+    engine: Engine | None = None,
 ) -> CyclesResult:
     """Read, clean and segment the logs; build duty-cycle types and their cycles; check their fuel.
 
@@ -137,25 +191,24 @@ def cycles_paths(
     """
     from fleetfuel.errors import CycleError
 
-    cfg = cfg or RunConfig()
+    cfg = _with_profile(cfg, profile)
     cycles_cfg = cycles_cfg or cfg.cycles
-    inspected = inspect_paths(paths, cfg, profile=profile)
-    if inspected.samples.empty:
-        why = f" ({inspected.failures[0].path}: {inspected.failures[0].error})" if inspected.failures else ""
-        raise CycleError(f"too little driving to form cycles: no usable samples in {', '.join(map(str, paths))}{why}")
-    samples = segment.split_microtrips(inspected.samples, cfg.segment)
-    samples, routes = segment.assign_routes(samples, None, cfg.segment, routes_file)
-    features = segment.microtrip_features(samples, cfg.segment)
-    if features.empty:
-        raise CycleError(f"too little driving to form cycles: no micro-trip in {', '.join(map(str, paths))}")
+    with prepared(paths, cfg, work_dir, engine) as fleet:
+        if not fleet.clean_rows:
+            why = f" ({fleet.failures[0].path}: {fleet.failures[0].error})" if fleet.failures else ""
+            raise CycleError(f"too little driving to form cycles: no usable samples in {', '.join(map(str, paths))}{why}")
+        if fleet.features.empty:
+            raise CycleError(f"too little driving to form cycles: no micro-trip in {', '.join(map(str, paths))}")
+        samples, routes, features = _segmented(fleet, cfg, routes_file)
+        account, failures = fleet.account, fleet.failures
     built = cycles.build_cycles(samples, features, cycles_cfg, cfg.segment)
     spec_name, unit, model = _reference_model(cycles_cfg.reference_spec, cfg.simulate)
     consumption = cycles.microtrip_consumption(samples, built.microtrips, model)
     rates = cycles.cycle_rates(built.cycles, model)
     return CyclesResult(
         samples=samples,
-        account=inspected.account,
-        failures=inspected.failures,
+        account=account,
+        failures=failures,
         routes=routes,
         cycles=built,
         fuel_check=cycles.fuel_check(built, consumption, rates, cycles_cfg),
@@ -209,6 +262,8 @@ def forecast_inputs(
     profile: str | None = None,
     routes_file: str | Path | None = None,
     progress: Progress | None = None,
+    work_dir: str | Path | None = None,
+    engine: Engine | None = None,
 ) -> ForecastInputs:
     """Read, clean and segment the logs, assign routes and build the duty types and cycles.
 
@@ -219,7 +274,7 @@ def forecast_inputs(
     """
     from fleetfuel.errors import CycleError, InputDataError
 
-    cfg = cfg or RunConfig()
+    cfg = _with_profile(cfg, profile)
     cycles_cfg = cfg.cycles
 
     def step(done: int) -> None:
@@ -227,19 +282,18 @@ def forecast_inputs(
             progress(done, len(FORECAST_STAGES), FORECAST_STAGES[min(done, len(FORECAST_STAGES) - 1)])
 
     step(0)
-    inspected = inspect_paths(paths, cfg, profile=profile)
-    if inspected.samples.empty:
-        raise InputDataError(f"no usable samples in {', '.join(map(str, paths))}: every file failed or was empty")
-    step(1)
-    samples = segment.split_microtrips(inspected.samples, cfg.segment)
-    samples, routes = segment.assign_routes(samples, None, cfg.segment, routes_file)
-    features = segment.microtrip_features(samples, cfg.segment)
+    with prepared(paths, cfg, work_dir, engine) as fleet:
+        if not fleet.clean_rows:
+            raise InputDataError(f"no usable samples in {', '.join(map(str, paths))}: every file failed or was empty")
+        step(1)
+        samples, routes, features = _segmented(fleet, cfg, routes_file)
+        account, failures = fleet.account, fleet.failures
     step(2)
     try:
         built: cycles.CycleSet | None = cycles.build_cycles(samples, features, cycles_cfg, cfg.segment)
     except CycleError:  # too little driving for duty types: every route is simulated on its own logs
         built = None
-    return ForecastInputs(samples=samples, account=inspected.account, failures=inspected.failures, routes=routes,
+    return ForecastInputs(samples=samples, account=account, failures=failures, routes=routes,
                           microtrips=features, cycles=built)
 
 
@@ -296,6 +350,7 @@ def forecast_paths(
     routes_file: str | Path | None = None,
     work_dir: str | Path | None = None,
     progress: Progress | None = None,
+    engine: Engine | None = None,
 ) -> ForecastResult:
     """The main job: read, clean, segment, cluster and forecast every route x competing spec.
 
@@ -327,5 +382,6 @@ def forecast_paths(
     ConfigError
         Bad forecast settings (unclassified vehicles, unknown current spec, ...).
     """
-    inputs = forecast_inputs(paths, cfg, profile=profile, routes_file=routes_file, progress=progress)
+    inputs = forecast_inputs(paths, cfg, profile=profile, routes_file=routes_file, progress=progress,
+                             work_dir=work_dir, engine=engine)
     return run_forecast(inputs, cfg, full=full, work_dir=work_dir, progress=progress)

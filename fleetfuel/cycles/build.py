@@ -21,7 +21,7 @@ from fleetfuel.cycles.chains import EXCESS_WEIGHT
 from fleetfuel.cycles.cluster import DutyTypeClusterer, fit_types, predict_types, type_names
 from fleetfuel.cycles.config import CyclesConfig
 from fleetfuel.cycles.labels import label_types
-from fleetfuel.cycles.pieces import PiecePool, build_pool, eligible_microtrips
+from fleetfuel.cycles.pieces import PiecePool, build_pool, eligible_microtrips, measured_microtrips
 from fleetfuel.cycles.safd import safd_difference, safd_of_trace, safd_shape
 from fleetfuel.cycles.stats import TARGET_STATS, floors, normalised_errors, with_derived
 from fleetfuel.cycles.weights import type_weights
@@ -46,7 +46,9 @@ class CycleSet:
     Attributes
     ----------
     microtrips : DataFrame
-        The micro-trip feature table with ``type`` and ``eligible`` (cut into cycles).
+        The micro-trip feature table with ``type``, ``measured`` (logged at the cycle step with
+        accelerations observable: in the types' targets and SAFD and in the fuel check)
+        and ``eligible`` (measured and at rest at both ends: cut into cycle pieces).
     types : DataFrame
         One row per type: ``type``, ``label``, ``microtrips``, ``distance_km``, ``time_h``,
         ``distance_share``, ``time_share``, ``mean_speed_kmh``, ``cycle_duration_s``,
@@ -105,9 +107,9 @@ def _check_enough(microtrips: pd.DataFrame, cfg: CyclesConfig) -> None:
 
 
 def _targets(samples: pd.DataFrame, microtrips: pd.DataFrame, names: list[str], segment_cfg: SegmentConfig) -> pd.DataFrame:
-    """Statistics of each type on its eligible micro-trips (all its micro-trips when none is)."""
+    """Statistics of each type on its measured micro-trips (all its micro-trips when none is)."""
     rows = microtrips.loc[microtrips["type"].notna().to_numpy()]
-    chosen = rows.loc[rows["eligible"].to_numpy()]
+    chosen = rows.loc[rows["measured"].to_numpy()]
     groups = pd.Series(chosen["type"].astype(str).to_numpy(), index=chosen[schema.MICROTRIP_ID].astype(str).to_numpy(), name="type")
     stats = segment.group_features(samples, groups, segment_cfg) if len(groups) else pd.DataFrame()
     fallback = set(names) - set(stats.index)
@@ -234,8 +236,10 @@ def _build(samples: pd.DataFrame, microtrips: pd.DataFrame, cfg: CyclesConfig, s
         raise CycleError(f"too little driving to form cycles: {exc}") from None
     names = type_names(model.n_types_)
     table["type"] = predict_types(model, columns, table)
-    eligible, step_s = eligible_microtrips(table, samples, segment_cfg.stop_speed_m_s)
-    table["eligible"] = eligible.to_numpy() & table["type"].notna().to_numpy()
+    measured, step_s = measured_microtrips(table, samples, segment_cfg.stop_speed_m_s)
+    eligible, _ = eligible_microtrips(table, samples, segment_cfg.stop_speed_m_s)
+    table["measured"] = measured.to_numpy() & table["type"].notna().to_numpy()
+    table["eligible"] = eligible.to_numpy() & table["measured"].to_numpy()
     if not table["eligible"].any():
         raise CycleError(
             "too little driving to form cycles: no micro-trip is logged at a uniform time step with "

@@ -1,10 +1,14 @@
 r"""The pool of real driving pieces a representative cycle is assembled from.
 
-Pieces are taken from the *eligible* micro-trips: those logged at the fleet's cycle step (the
-time step covering most driving; low-rate logs are typed and weighted but not cut into cycles)
-with every acceleration statistic observable, starting and ending at rest. A micro-trip no longer than
-``cfg.max_piece_share * cfg.target_duration_s`` is one piece (``whole``). A longer one (a
-motorway or rural run that alone outlasts the cycle) is cut at *splice points* into a ``head``
+A micro-trip is *measured* when it is logged at the fleet's cycle step (the time step covering
+most driving; low-rate logs are typed and weighted but not cut into cycles) with its
+accelerations observable; measured driving makes the types' targets and SAFD (and the fuel check,
+:mod:`fleetfuel.cycles.validate`), wherever it starts and ends. Pieces are taken from the
+*eligible* micro-trips, the measured ones starting and ending at rest, plus the long measured ones
+that start or end moving (a trip cut at a gap on the motorway): of those only the pieces that
+join at splice levels are kept, never one starting or ending moving where it should be at rest.
+A micro-trip no longer than ``cfg.max_piece_share * cfg.target_duration_s`` is one piece
+(``whole``). A longer one (a motorway or rural run that alone outlasts the cycle) is cut at *splice points* into a ``head``
 (its idle and start up to the first cut), ``window`` pieces (cut to cut) and a ``tail`` (last cut
 to the stop). Splice points are cruise samples (:math:`|a| \le a_{mode}`) whose speed is within
 ``cfg.splice_tolerance_m_s`` of one of the type's *splice levels*, at least ``cfg.window_s``
@@ -67,15 +71,11 @@ PIECE_COLUMNS: Final = (
 sample frame)."""
 STEP_MATCH: Final = 1e-6  # relative: equal time steps up to float round-off
 REST: Final = -1
-ACCEL_STATS: Final = (
-    "accel_share",
-    "cruise_share",
-    "decel_share",
-    "mean_pos_accel_m_s2",
-    "mean_neg_accel_m_s2",
-    "rms_accel_m_s2",
-    "rpa_m_s2",
-)
+OBSERVED_STATS: Final = ("accel_share", "cruise_share", "decel_share", "rms_accel_m_s2")
+"""Statistics that are NaN exactly when a micro-trip's acceleration is not observable (low-rate
+logs; :mod:`fleetfuel.segment.features`). The mean positive and negative accelerations are also
+NaN for driving without an acceleration or deceleration phase (a motorway run cut at a gap), so
+they do not say whether a micro-trip is measured."""
 
 
 @dataclass(frozen=True, slots=True)
@@ -134,20 +134,10 @@ def row_motion(samples: pd.DataFrame, segment_cfg: SegmentConfig) -> tuple[Float
     return t, v, np.where(outside, np.nan, kin.accel_m_s2), np.where(outside, 0.0, kin.weight_s)
 
 
-def eligible_microtrips(
+def _step_and_ends(
     microtrips: pd.DataFrame, samples: pd.DataFrame, stop_speed_m_s: float
-) -> tuple[pd.Series, float]:
-    """Which micro-trips cycles may be cut from, and the cycles' time step.
-
-    Returns
-    -------
-    eligible : Series of bool
-        Indexed like ``microtrips``: every acceleration statistic known, every time step equal to
-        the cycle step, and first and last sample at rest (below ``stop_speed_m_s`` [m/s]; a log
-        may start or break off while moving), so that pieces join at rest.
-    step_s : float
-        The time step covering the most driving time (NaN when there is none). [s]
-    """
+) -> tuple[FloatArray, npt.NDArray[np.bool_]]:
+    """Largest time step [s] (NaN: one row) and "first and last row at rest" of each micro-trip."""
     in_mt = samples[schema.MICROTRIP_ID].notna().to_numpy()
     ids_of_rows = samples[schema.MICROTRIP_ID].to_numpy(dtype=object)[in_mt]
     t = ((samples[schema.TIME_UTC] - pd.Timestamp(0, tz="UTC")) / pd.Timedelta(seconds=1)).to_numpy(np.float64)[in_mt]
@@ -162,7 +152,30 @@ def eligible_microtrips(
     ids = microtrips[schema.MICROTRIP_ID]
     max_step = ids.map(per_mt["step"]).to_numpy(dtype=np.float64, na_value=np.nan)
     at_rest = ~ids.map(per_mt["moving_end"]).fillna(True).to_numpy(dtype=bool)
-    known = microtrips[list(ACCEL_STATS)].notna().all(axis=1).to_numpy() & np.isfinite(max_step) & at_rest
+    return max_step, at_rest
+
+
+def measured_microtrips(
+    microtrips: pd.DataFrame, samples: pd.DataFrame, stop_speed_m_s: float
+) -> tuple[pd.Series, float]:
+    """Which micro-trips are driving measured at the cycles' time step, and that step.
+
+    A micro-trip is *measured* when its accelerations are observable (:data:`OBSERVED_STATS`
+    known) and every time step equals the cycle step, wherever it starts and ends: a log may
+    start or break off while moving (a trip cut at a gap on the motorway), and that driving still
+    belongs to its type. Measured micro-trips make the types' targets and SAFD and both sides of
+    the fuel check; cycles are cut from the :func:`eligible_microtrips` among them (and from the
+    splice-level pieces of long measured ones, :func:`build_pool`).
+
+    Returns
+    -------
+    measured : Series of bool
+        Indexed like ``microtrips``.
+    step_s : float
+        The time step covering the most driving time (NaN when there is none). [s]
+    """
+    max_step, _ = _step_and_ends(microtrips, samples, stop_speed_m_s)
+    known = microtrips[list(OBSERVED_STATS)].notna().all(axis=1).to_numpy() & np.isfinite(max_step)
     if not known.any():
         return pd.Series(False, index=microtrips.index), float("nan")
     duration = microtrips["duration_s"].to_numpy(dtype=np.float64)
@@ -170,6 +183,25 @@ def eligible_microtrips(
     step_s = float(steps.idxmax())
     ok = known & (np.abs(max_step - step_s) <= STEP_MATCH * step_s)
     return pd.Series(ok, index=microtrips.index), step_s
+
+
+def eligible_microtrips(
+    microtrips: pd.DataFrame, samples: pd.DataFrame, stop_speed_m_s: float
+) -> tuple[pd.Series, float]:
+    """Which micro-trips cycles may be cut from, and the cycles' time step.
+
+    Returns
+    -------
+    eligible : Series of bool
+        Indexed like ``microtrips``: measured (:func:`measured_microtrips`: accelerations
+        observable, every time step equal to the cycle step) and first and last sample at
+        rest (below ``stop_speed_m_s`` [m/s]), so that pieces join at rest.
+    step_s : float
+        The time step covering the most driving time (NaN when there is none). [s]
+    """
+    measured, step_s = measured_microtrips(microtrips, samples, stop_speed_m_s)
+    _, at_rest = _step_and_ends(microtrips, samples, stop_speed_m_s)
+    return measured & at_rest, step_s
 
 
 def _levels(types: npt.NDArray[np.object_], v: FloatArray, n: int, tolerance_m_s: float) -> dict[str, FloatArray]:
@@ -253,6 +285,25 @@ def _cut_pieces(
     return meta, features.reindex(meta["piece_id"]).reset_index(drop=True), hist, levels
 
 
+def _type_safd(
+    samples: pd.DataFrame, microtrips: pd.DataFrame, motion: tuple[FloatArray, FloatArray, FloatArray, FloatArray],
+    cfg: CyclesConfig,
+) -> dict[str, FloatArray]:
+    """Time in each SAFD cell of each type's measured driving (``measured``, else ``eligible``). [s]"""
+    flag = "measured" if "measured" in microtrips.columns else "eligible"
+    rows = microtrips.loc[microtrips[flag].to_numpy(dtype=bool) & microtrips["type"].notna().to_numpy()]
+    row_type = samples[schema.MICROTRIP_ID].astype("string").map(
+        pd.Series(rows["type"].astype(str).to_numpy(), index=rows[schema.MICROTRIP_ID].astype(str).to_numpy())
+    )
+    pos = np.flatnonzero(row_type.notna().to_numpy())
+    if not pos.size:
+        return {}
+    code, names = _codes(row_type.iloc[pos])
+    _, v, a, w = motion
+    counts = safd_counts(v[pos], a[pos], w[pos], code, len(names), cfg)
+    return {str(name): counts[k] for k, name in sorted(enumerate(names), key=lambda kv: str(kv[1]))}
+
+
 def build_pool(
     samples: pd.DataFrame,
     microtrips: pd.DataFrame,
@@ -262,12 +313,17 @@ def build_pool(
 ) -> PiecePool:
     """Cut the eligible micro-trips into pieces and compute each piece's sums and SAFD.
 
+    Long measured micro-trips that start or end moving (not eligible) give their pieces that join
+    at splice levels too: their windows, and the tail (head) of one that only starts (ends)
+    moving. No piece starts or ends moving where it should be at rest.
+
     Parameters
     ----------
     samples : DataFrame
         Segmented clean frame (with ``microtrip_id`` and ``trip_id``), sorted by vehicle and time.
     microtrips : DataFrame
-        Micro-trip feature table with ``type`` and a bool column ``eligible``.
+        Micro-trip feature table with ``type`` and bool columns ``eligible`` and (optional)
+        ``measured``.
     step_s : float
         Time step of the eligible micro-trips (:func:`eligible_microtrips`). [s]
     cfg, segment_cfg : CyclesConfig, SegmentConfig
@@ -276,7 +332,11 @@ def build_pool(
     -------
     PiecePool
     """
-    chosen = microtrips.loc[microtrips["eligible"].to_numpy()].reset_index(drop=True)
+    longest_whole_s = cfg.max_piece_share * cfg.target_duration_s
+    long_mt = microtrips["duration_s"].to_numpy(dtype=np.float64, na_value=0.0) > longest_whole_s
+    measured = microtrips["measured"].to_numpy(dtype=bool) if "measured" in microtrips.columns else False
+    cut_too = microtrips["eligible"].to_numpy(dtype=bool) | (measured & long_mt)
+    chosen = microtrips.loc[cut_too].reset_index(drop=True)
     ids = chosen[schema.MICROTRIP_ID].astype(str)
     motion = row_motion(samples, segment_cfg)
     t, v, a, w = motion
@@ -286,8 +346,8 @@ def build_pool(
     row_type = chosen["type"].astype(str).to_numpy(dtype=object)[at][mt]
     mt_safd = safd_counts(v[pos], a[pos], w[pos], mt, len(mt_ids), cfg)
     mt_type = chosen["type"].astype(str).to_numpy(dtype=object)[at]
-    type_safd = {str(k): mt_safd[mt_type == k].sum(axis=0) for k in np.unique(mt_type)}
-    is_long = (chosen["duration_s"].to_numpy() > cfg.max_piece_share * cfg.target_duration_s)[at]
+    type_safd = _type_safd(samples, microtrips, motion, cfg)
+    is_long = (chosen["duration_s"].to_numpy() > longest_whole_s)[at]
     first = pd.Series(pos).groupby(mt).min().to_numpy()
     last = pd.Series(pos).groupby(mt).max().to_numpy()
     short = np.flatnonzero(~is_long)
@@ -320,10 +380,13 @@ def build_pool(
     table["distance_m"] = all_features["distance_m"].to_numpy(dtype=np.float64)
     table["start_utc"] = pd.to_datetime(table["start_utc"], utc=True)
     table["end_utc"] = pd.to_datetime(table["end_utc"], utc=True)
+    moving = v >= segment_cfg.stop_speed_m_s
+    ok = ~(((table["entry_level"] == REST).to_numpy() & moving[table["first_row"].to_numpy()])
+           | ((table["exit_level"] == REST).to_numpy() & moving[table["last_row"].to_numpy()]))
     return PiecePool(
-        table=table[list(PIECE_COLUMNS)],
-        sums=additive_sums(all_features),
-        safd=np.vstack([mt_safd[short], hists]),
+        table=table.loc[ok, list(PIECE_COLUMNS)].reset_index(drop=True),
+        sums=additive_sums(all_features)[ok],
+        safd=np.vstack([mt_safd[short], hists])[ok],
         type_safd=type_safd,
         levels_m_s=levels,
         step_s=step_s,

@@ -5,14 +5,20 @@ simulated on the weighted representative cycles against the same vehicle simulat
 cleaned logs. The vehicle model belongs to a later stage, so it comes in as a function
 (:data:`FuelModel`): the pipeline wraps :func:`fleetfuel.simulate.simulate_trace`.
 
-- *On the logs*: every trip holding an eligible micro-trip is simulated whole (so each sample
+- *On the logs*: every trip holding a measured micro-trip is simulated whole (so each sample
   keeps its real neighbours); each micro-trip's consumption is the sum over its rows.
 - *On the cycles*: each type's cycle is simulated once; its consumption per metre :math:`c_k`
   times the distance :math:`D_{g,k}` a group :math:`g` drives in type :math:`k` gives
   :math:`\hat F_g = \sum_k D_{g,k} c_k`.
 
-Both sides cover the same driving: the eligible micro-trips (:mod:`fleetfuel.cycles.pieces`) of
-types that have a cycle. Relative error :math:`(\hat F_g - F_g) / F_g`; goals
+Both sides cover the same driving: the *measured* micro-trips
+(:func:`fleetfuel.cycles.pieces.measured_microtrips`: logged at the cycle step) of types that have
+a cycle, including those that start or end moving (cut at a gap or a log's edge): they give at
+most splice-level pieces to the cycles, but their distance belongs to their type, as in the
+weights the forecast uses. Only low-rate logs stay out (simulating them at their coarse step
+would not be a reference). The rates are per metre and the groups are weighted by distance, as
+in the forecast's route intensities (a time weighting with per-second rates was measured worse on
+the sample fleet). Relative error :math:`(\hat F_g - F_g) / F_g`; goals
 ``cfg.fuel_tolerance_fleet`` (fleet), ``cfg.fuel_tolerance_route`` (each route) and
 ``cfg.holdout_tolerance`` (held-out day: types and cycles fitted without that day's micro-trips,
 its micro-trips typed by the fitted model and predicted).
@@ -47,23 +53,29 @@ def _seconds(times: pd.Series) -> FloatArray:
     return ((times - pd.Timestamp(0, tz="UTC")) / pd.Timedelta(seconds=1)).to_numpy(np.float64)
 
 
+def _measured(microtrips: pd.DataFrame) -> npt.NDArray[np.bool_]:
+    """Rows in the check: ``measured`` (tables from before that column: ``eligible``)."""
+    flag = "measured" if "measured" in microtrips.columns else "eligible"
+    return microtrips[flag].to_numpy(dtype=bool)
+
+
 def microtrip_consumption(samples: pd.DataFrame, microtrips: pd.DataFrame, fuel_model: FuelModel) -> pd.Series:
-    """Consumption of each eligible micro-trip, simulated trip by trip over the full logs.
+    """Consumption of each measured micro-trip, simulated trip by trip over the full logs.
 
     Parameters
     ----------
     samples : DataFrame
         Segmented clean frame, sorted by vehicle and time (trips are contiguous runs of rows).
     microtrips : DataFrame
-        :attr:`CycleSet.microtrips` (``eligible`` column).
+        :attr:`CycleSet.microtrips` (``measured`` column; ``eligible`` when it has none).
     fuel_model : FuelModel
 
     Returns
     -------
     Series
-        Indexed by ``microtrip_id`` (eligible ones, sorted), in the model's unit.
+        Indexed by ``microtrip_id`` (measured ones, sorted), in the model's unit.
     """
-    ids = microtrips.loc[microtrips["eligible"].to_numpy(), schema.MICROTRIP_ID].astype(str)
+    ids = microtrips.loc[_measured(microtrips), schema.MICROTRIP_ID].astype(str)
     wanted = samples[schema.MICROTRIP_ID].isin(set(ids)).to_numpy()
     trips = set(samples.loc[wanted, schema.TRIP_ID].astype(str))
     rows = np.flatnonzero(samples[schema.TRIP_ID].isin(trips).to_numpy())
@@ -114,7 +126,7 @@ def _check_rows(scope: str, keys: pd.Series, frame: pd.DataFrame, goal: float) -
 
 
 def _predicted(microtrips: pd.DataFrame, types: pd.Series, consumption: pd.Series, rates: pd.DataFrame) -> pd.DataFrame:
-    """Eligible micro-trips of types with a cycle: distance, consumption on logs and on cycles."""
+    """Micro-trips of types with a cycle and a consumption: distance, consumption on logs and on cycles."""
     ids = microtrips[schema.MICROTRIP_ID].astype(str)
     per_m = types.astype("string").map(rates["per_m"]).to_numpy(dtype=np.float64, na_value=np.nan)
     frame = pd.DataFrame(
@@ -152,7 +164,8 @@ def fuel_check(cycleset: CycleSet, consumption: pd.Series, rates: pd.DataFrame, 
         the route goal: it is the per-type agreement behind the route figures).
     """
     mts = cycleset.microtrips
-    frame = _predicted(mts, mts["type"], consumption, rates)
+    keep = _measured(mts)
+    frame = _predicted(mts.loc[keep], mts["type"].loc[keep], consumption, rates)
     parts = [_check_rows("fleet", pd.Series("fleet", index=frame.index), frame, cfg.fuel_tolerance_fleet)]
     if schema.ROUTE in frame.columns:
         parts.append(_check_rows("route", frame[schema.ROUTE], frame, cfg.fuel_tolerance_route))
@@ -190,7 +203,7 @@ def holdout_check(
     day = known[-1] if cfg.holdout_day == "last" and known else cfg.holdout_day
     if len(known) < 2 or day not in known:
         return empty
-    train = mts.loc[(days != day).to_numpy()].drop(columns=["type", "eligible"])
+    train = mts.loc[(days != day).to_numpy()].drop(columns=["type", "measured", "eligible"], errors="ignore")
     test = mts.loc[(days == day).to_numpy()]
     try:
         fitted = build_cycles(samples, train, cfg, segment_cfg)
@@ -199,7 +212,8 @@ def holdout_check(
         return pd.DataFrame([row])
     rates = cycle_rates(fitted.cycles, fuel_model)
     test_types = fitted.assign(test)
-    frame = _predicted(test.loc[test["eligible"].to_numpy()], test_types[test["eligible"].to_numpy()], consumption, rates)
+    keep = _measured(test)
+    frame = _predicted(test.loc[keep], test_types[keep], consumption, rates)
     out = _check_rows("holdout", pd.Series(day, index=frame.index), frame, cfg.holdout_tolerance)
     out["note"] = f"types and cycles fitted on {len(known) - 1} other day(s) ({fitted.types.shape[0]} types)"
     return out

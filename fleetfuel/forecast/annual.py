@@ -6,7 +6,8 @@ on the route (:mod:`fleetfuel.forecast.energy`):
 - fuel: :math:`L_{100} = 100\,e_L` [L/100 km] and :math:`L = L_{100} D / 100` [L] (liquid fuels;
   so that L/100 km x km = litres exactly); :math:`m_f = e_{kg} D` [kg] (every fuel);
 - grid energy: :math:`E = e_{grid} D` [kWh], charger and charging losses included;
-- CO2 tank to wheel: :math:`m_f \cdot c_{TTW}` (:data:`fleetfuel.constants.FUELS`);
+- CO2 tank to wheel: :math:`m_f \cdot c_{TTW}` (``ForecastConfig.ttw_co2_kg_per_kg``, default
+  :data:`fleetfuel.constants.FUELS`);
   well to wheel: tank to wheel + :math:`m_f\,H_u\,c_{WTT}` + :math:`E\,c_{grid}`
   (``co2_kg_per_year`` is the well-to-wheel figure, the fair one between fuels and electricity);
 - energy cost: :math:`L p_L` (liquid) or :math:`m_f p_{kg}` (gaseous) + :math:`E p_{el}`;
@@ -82,7 +83,7 @@ def annual_figures(
     out["kwh_per_year"] = energy.grid_kwh_per_km * annual_km
     ttw = wtt = fuel_cost = 0.0
     if fuel is not None:
-        ttw = out["fuel_kg_per_year"] * fuel.co2_kg_per_kg
+        ttw = out["fuel_kg_per_year"] * cfg.ttw_co2_kg_per_kg.get(fuel.name, fuel.co2_kg_per_kg)
         if fuel.name not in cfg.wtt_co2_g_per_mj:
             raise ConfigError(f"forecast.wtt_co2_g_per_mj: no well-to-tank factor for fuel {fuel.name!r}")
         mj = out["fuel_kg_per_year"] * fuel.lower_heating_value_j_kg / JOULES_PER_MJ

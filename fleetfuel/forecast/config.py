@@ -42,6 +42,9 @@ DEFAULT_FUEL_PRICE_PER_KG: Final = {"cng": 1.25}
 # Eurostat, "Electricity prices for non-household consumers" (nrg_pc_205), EU-27 2024-S1, band
 # ID, excluding VAT and recoverable taxes: about 0.19 EUR/kWh (from memory); depot charging.
 DEFAULT_ELECTRICITY_PRICE_PER_KWH: Final = 0.19
+# Tank-to-wheel CO2 per kg of fuel burnt: each fuel's factor in fleetfuel.constants.FUELS, with its
+# source there (EPA-420-F-18-008 for diesel and petrol; JEC WTW v5 (2020) for CNG, from memory).
+DEFAULT_TTW_CO2_KG_PER_KG: Final = {name: props.co2_kg_per_kg for name, props in FUELS.items()}
 # Well-to-tank CO2-equivalent per MJ of fuel (LHV): JEC Well-to-Wheels report v5 (2020), EU
 # pathways for market diesel, petrol and CNG (EU mix), orders of magnitude (from memory).
 DEFAULT_WTT_CO2_G_PER_MJ: Final = {"diesel": 17.0, "petrol": 16.0, "cng": 13.0}
@@ -73,9 +76,11 @@ _MERGED_DEFAULTS: Final = {
     "fuel_price_per_l": DEFAULT_FUEL_PRICE_PER_L,
     "fuel_price_per_kg": DEFAULT_FUEL_PRICE_PER_KG,
     "wtt_co2_g_per_mj": DEFAULT_WTT_CO2_G_PER_MJ,
+    "ttw_co2_kg_per_kg": DEFAULT_TTW_CO2_KG_PER_KG,
 }
 """Tables whose given entries override the defaults fuel by fuel (the others keep their default)."""
-_NUMBER_MAPS: Final = ("fuel_price_per_l", "fuel_price_per_kg", "wtt_co2_g_per_mj", "payload_kg", "planned_annual_km")
+_NUMBER_MAPS: Final = ("fuel_price_per_l", "fuel_price_per_kg", "wtt_co2_g_per_mj", "ttw_co2_kg_per_kg", "payload_kg",
+                       "planned_annual_km")
 _CLASS_MAPS: Final = ("vehicle_class", "route_class", "class_prefixes")
 _SHARES: Final = ("electric_reserve_share", "max_shortfall_share")
 
@@ -90,14 +95,16 @@ class ForecastConfig:
         Label of every money figure (no conversion is made).
     fuel_price_per_l : mapping of str to float
         Liquid fuel -> price. [currency/L] Given entries override the defaults fuel by fuel (so do
-        ``fuel_price_per_kg`` and ``wtt_co2_g_per_mj``); the other tables replace theirs.
+        ``fuel_price_per_kg``, ``wtt_co2_g_per_mj`` and ``ttw_co2_kg_per_kg``); the other tables
+        replace theirs.
     fuel_price_per_kg : mapping of str to float
         Gaseous fuel -> price. [currency/kg]
     electricity_price_per_kwh : float
         Grid electricity at the depot charger. [currency/kWh]
     wtt_co2_g_per_mj : mapping of str to float
-        Fuel -> well-to-tank CO2-equivalent per MJ (LHV); tank-to-wheel comes from
-        :data:`fleetfuel.constants.FUELS`. [g/MJ]
+        Fuel -> well-to-tank CO2-equivalent per MJ (LHV). [g/MJ]
+    ttw_co2_kg_per_kg : mapping of str to float
+        Fuel -> tank-to-wheel CO2 per kg burnt (default: :data:`fleetfuel.constants.FUELS`). [kg/kg]
     grid_co2_kg_per_kwh : float
         CO2 per kWh taken from the grid (well-to-wheel of electric specs). [kg/kWh]
     operating_days_per_year : float
@@ -131,6 +138,7 @@ class ForecastConfig:
     fuel_price_per_kg: Mapping[str, float] = field(default_factory=lambda: dict(DEFAULT_FUEL_PRICE_PER_KG))
     electricity_price_per_kwh: float = DEFAULT_ELECTRICITY_PRICE_PER_KWH
     wtt_co2_g_per_mj: Mapping[str, float] = field(default_factory=lambda: dict(DEFAULT_WTT_CO2_G_PER_MJ))
+    ttw_co2_kg_per_kg: Mapping[str, float] = field(default_factory=lambda: dict(DEFAULT_TTW_CO2_KG_PER_KG))
     grid_co2_kg_per_kwh: float = DEFAULT_GRID_CO2_KG_PER_KWH
     operating_days_per_year: float = DEFAULT_OPERATING_DAYS_PER_YEAR
     electric_reserve_share: float = DEFAULT_ELECTRIC_RESERVE_SHARE
@@ -200,7 +208,8 @@ def _check_tables(cfg: ForecastConfig) -> None:
         for key, value in getattr(cfg, name).items():
             if _number(f"{name}.{key}", value) < 0:
                 raise ConfigError(f"forecast.{name}.{key}: must be >= 0, found {value!r}")
-    for name, liquid in (("fuel_price_per_l", True), ("fuel_price_per_kg", False), ("wtt_co2_g_per_mj", None)):
+    for name, liquid in (("fuel_price_per_l", True), ("fuel_price_per_kg", False), ("wtt_co2_g_per_mj", None),
+                         ("ttw_co2_kg_per_kg", None)):
         for key in getattr(cfg, name):
             if key not in FUELS:
                 raise ConfigError(f"forecast.{name}: unknown fuel {key!r}; known fuels: {', '.join(FUELS)}")

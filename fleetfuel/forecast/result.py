@@ -89,7 +89,9 @@ def assumption_list(cfg: ForecastConfig, missions: pd.DataFrame, full: bool, cat
     out["Price of electricity"] = (f"{cfg.electricity_price_per_kwh:g} {cur}/kWh from the grid ("
                                    f"{_origin(cfg, 'electricity_price_per_kwh', 'Eurostat nrg_pc_205, EU-27 2024-S1 band ID excl. VAT, from memory')})")
     for props in FUELS.values():
-        out[f"CO2 tank to wheel, {props.name}"] = f"{props.co2_kg_per_kg:.3f} kg/kg ({props.source})"
+        factor = cfg.ttw_co2_kg_per_kg.get(props.name, props.co2_kg_per_kg)
+        out[f"CO2 tank to wheel, {props.name}"] = (f"{factor:.3f} kg/kg "
+                                                   f"({_origin(cfg, 'ttw_co2_kg_per_kg', props.source, props.name)})")
     for fuel, g in cfg.wtt_co2_g_per_mj.items():
         out[f"CO2 well to tank, {fuel}"] = f"{g:g} g/MJ ({_origin(cfg, 'wtt_co2_g_per_mj', 'JEC WTW v5 (2020), from memory', fuel)})"
     out["CO2 of grid electricity"] = (f"{cfg.grid_co2_kg_per_kwh:g} kg/kWh ("
@@ -124,6 +126,6 @@ def assumption_list(cfg: ForecastConfig, missions: pd.DataFrame, full: bool, cat
                                      f"({_origin(cfg, 'discount_rate', 'straight line')}), times the route's vehicles in service")
     out["Vehicles in service"] = "shifts on the route per fleet operating day (a vehicle shared between routes is split)"
     out["Spec catalogue"] = catalogue
-    out["Caution"] = ("estimates, not guarantees: check payload and legal masses, gradeability and range reserves "
-                      "with the maker and local regulations")
+    out["Caution"] = ("estimates, not guarantees: check payload and legal masses, gradeability, braking and range "
+                      "reserves with the maker and local regulations, signed off by licensed practice")
     return out

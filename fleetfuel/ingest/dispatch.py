@@ -163,7 +163,11 @@ _DATA_ERRORS: Final = (
 """Exceptions a hostile or broken file can provoke: recorded as a failure, never raised."""
 
 
-def _read_one(path: Path, cfg: IngestConfig) -> tuple[list[LogFile], list[FileFailure]]:
+def read_path(path: Path, cfg: IngestConfig) -> tuple[list[LogFile], list[FileFailure]]:
+    """Read one named file (every CSV member of a zip archive); never raises for a bad file.
+
+    The unit of work of :func:`read_logs` and of the engine's read tasks.
+    """
     try:
         if sniff_format(path) == "zip":
             files: list[LogFile] = []
@@ -199,7 +203,7 @@ def read_logs(paths: Iterable[Path | str], cfg: IngestConfig | None = None) -> L
     files: list[LogFile] = []
     failures: list[FileFailure] = []
     for path in expand_paths(paths):
-        got, failed = _read_one(path, cfg)
+        got, failed = read_path(path, cfg)
         files.extend(got)
         failures.extend(failed)
     return LogBatch(

@@ -18,7 +18,8 @@ Per step (Guzzella & Sciarretta 2013, Ch. 3; Wong 2008, Ch. 3):
   silently);
 - overrun (:math:`T_e \le 0`) above the fuel-cut speed: fuel falls linearly from the zero-load rate
   at zero torque to nothing at the motoring torque (fuel cut); engine drag brakes, friction brakes
-  take the rest; at or below the cut speed the engine runs at its zero-load rate;
+  take the rest (the engine torque reported is then the motoring torque: the friction brakes' share
+  is not carried by the crankshaft); at or below the cut speed the engine runs at its zero-load rate;
 - launch below the lowest gear's idle road speed: gear 1 with the clutch slipping, engine held at
   the launch speed, clutch torque = engine torque (slip power is lost);
 - standstill and clutch-open coasting: engine idles carrying the auxiliaries (idle fuel), or is
@@ -276,10 +277,12 @@ def _operating_points(spec: VehicleSpec, gear: npt.NDArray[np.int8], mode: npt.N
     delivered = np.where(pulling, np.minimum(force, np.maximum(capacity, 0.0)), force)
     short = np.where(pulling, force - delivered, 0.0)
     torque = np.where(pulling, delivered * radius_m / (ratio * eta) + aux, torque)
-    # braking: engine drag (fuel cut) in gear, friction brakes for the rest
+    # braking: engine drag (fuel cut) in gear, friction brakes for the rest; the crankshaft carries
+    # at most the drag torque, the friction brakes' share never passes through the driveline
     drag = motoring_torque_nm(engine, rpm)
     drag_wheel = np.where(neutral, 0.0, (drag - aux) * ratio / (eta * radius_m))
     brake = np.where(force < 0, np.maximum(drag_wheel - force, 0.0), 0.0)
+    torque = np.where((force < 0) & ~neutral, np.maximum(torque, drag), torque)
     rate = fuel_model(engine).fuel_rate_g_s(rpm, torque)
     with np.errstate(divide="ignore", invalid="ignore"):
         share = np.where(drag < 0, np.clip((torque - drag) / -drag, 0.0, 1.0), 0.0)

@@ -25,6 +25,11 @@ from fleetfuel.ingest import IngestConfig, read_log
 
 CYCLE_PROFILE: Final = "cycle_csv"
 NS_PER_S: Final = 1e9
+CYCLE_COLUMNS_HINT: Final = (
+    "fleetfuel simulate --cycle FILE reads a CSV with columns time_s and speed_m_s or speed_kmh, optional grade "
+    "(rise/run) or elevation_m; rename the columns to these (simulate takes no ingest profile)"
+)
+"""What a cycle file must hold, in the words of the ``simulate`` verb's options (its only cycle option is ``--cycle``)."""
 
 FloatArray = npt.NDArray[np.float64]
 
@@ -99,7 +104,14 @@ def read_cycle(path: str | Path, clean_cfg: CleanConfig | None = None) -> Cycle:
     InputDataError
         Unreadable file, a row the reader had to drop (naming the row and reason), no speed.
     """
-    log = read_log(Path(path), IngestConfig(profile=CYCLE_PROFILE))
+    try:
+        log = read_log(Path(path), IngestConfig(profile=CYCLE_PROFILE))
+    except InputDataError as exc:
+        text = str(exc)
+        if "--profile" not in text:  # the reader's advice names an option of the log verbs, not of simulate
+            raise
+        found = text.split("; give --profile", 1)[0].partition("; found ")[2]
+        raise InputDataError(f"{path}: not a cycle file" + (f"; found {found}" if found else "") + f"; {CYCLE_COLUMNS_HINT}") from None
     if len(log.dropped):
         first = log.dropped.iloc[0]
         raise InputDataError(

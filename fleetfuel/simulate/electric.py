@@ -12,7 +12,8 @@ Per step (Guzzella & Sciarretta 2013, Ch. 4):
 - regeneration: ``regen_share`` of the braking demand is offered to the motor, limited by the
   motor's torque and power, by adhesion of the driven axle, by the battery's charge power
   (``max_charge_power_kw`` at the terminals) and to speeds above ``regen_min_speed_m_s``;
-  friction brakes take the rest;
+  friction brakes take the rest (the motor torque reported is the regenerating share only, so it
+  stays within the motor's limit; the friction brakes' share does not pass through the driveline);
 - battery terminals carry the motor's electrical power plus the auxiliaries (electric);
   the state of charge follows the chemistry side: :math:`P / \eta_{dis}` out,
   :math:`P \eta_{chg}` in (:func:`_soc_kernel`, a recurrence compiled with numba, since a full
@@ -239,15 +240,18 @@ def simulate_electric(spec: VehicleSpec, time_s: FloatArray, speed_m_s: FloatArr
                                       discharge_efficiency=battery.discharge_efficiency,
                                       charge_efficiency=battery.charge_efficiency)
     # a full battery refuses regeneration: that energy goes to the friction brakes too
-    force, regen_force = out["force"], out["regen_force"]
+    force, regen_force, torque = out["force"], out["regen_force"], out["torque"]
     braking = (speed_m_s > 0) & (force < 0)
     refused = np.where(braking, np.maximum(accepted_w - out["terminal_w"], 0.0), 0.0)
     if refused.any():
         with np.errstate(divide="ignore", invalid="ignore"):
             refused_force = np.where(refused > 0, refused / (out["eff"] * spec.driveline.efficiency * speed_m_s), 0.0)
-        regen_force = np.minimum(regen_force + refused_force, 0.0)
+            offered = regen_force
+            regen_force = np.minimum(regen_force + refused_force, 0.0)
+            # the motor carries only the regeneration the battery took (torque in proportion to the force)
+            torque = np.where(braking & (offered < 0), torque * (regen_force / offered), torque)
     brake = np.where(braking, regen_force - force, 0.0)
     regen_w = np.where(braking, np.maximum(spec.auxiliary.power_kw * KW_W - accepted_w, 0.0), 0.0)
-    return PowertrainSteps(gear=gear, shaft_speed_rpm=out["rpm"], shaft_torque_nm=out["torque"],
+    return PowertrainSteps(gear=gear, shaft_speed_rpm=out["rpm"], shaft_torque_nm=torque,
                            wheel_force_n=out["delivered"], shortfall_n=out["short"], friction_brake_n=brake,
                            fuel_rate_g_s=np.zeros(steps), battery_power_w=accepted_w, soc=soc, regen_power_w=regen_w)

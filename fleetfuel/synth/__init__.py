@@ -44,7 +44,8 @@ Exports (through ingest profiles, so every layout written can be read back):
 
 - ``synth.write_export(frame, profile, path)``: CSV (optionally gzip) laid out by a
   :class:`fleetfuel.ingest.profiles.Profile` (any bundled layout the frame can fill);
-  ``synth.write_parquet(frame, profile_or_None, path)``; ``synth.write_gpx(frame, path)``
+  ``synth.write_parquet(frame, profile_or_None, path)``; ``synth.write_daily_files(frame, folder)``
+  (one Parquet file per vehicle and day); ``synth.write_gpx(frame, path)``
   (GPX 1.1, speed in an extension). Demo layouts: ``depot_tracker_csv``, ``fleet_portal_csv``,
   ``event_logger_csv``, ``bus_parquet`` (top-level ``ingest/``).
 
@@ -71,7 +72,7 @@ from __future__ import annotations
 
 from fleetfuel.synth.defects import DefectSpec, InjectedDefects, add_defects
 from fleetfuel.synth.drive import MOVING, TRUTH_COLUMNS, DriveTruth, Logger, drive
-from fleetfuel.synth.export import write_export, write_gpx, write_parquet
+from fleetfuel.synth.export import write_daily_files, write_export, write_gpx, write_parquet
 from fleetfuel.synth.fixtures import Hill, line_route
 from fleetfuel.synth.fleet import ROSTER, SCENARIO_TIMEZONE, SyntheticFleet, VehiclePlan, fleet, roster
 from fleetfuel.synth.network import COMPANY, quillmere_network
@@ -85,5 +86,5 @@ __all__ = [
     "DefectSpec", "DriveConfig", "DriveTruth", "Hill", "InjectedDefects", "Logger", "PlannedStop", "Route",
     "SyntheticFleet", "TruthFuelModel", "VehicleClass", "VehiclePlan",
     "add_defects", "drive", "fleet", "line_route", "quillmere_network", "roster",
-    "write_export", "write_gpx", "write_parquet",
+    "write_daily_files", "write_export", "write_gpx", "write_parquet",
 ]

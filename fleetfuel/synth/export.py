@@ -271,3 +271,13 @@ def write_gpx(frame: pd.DataFrame, path: Path | str, *, creator: str = "syntheti
     path.parent.mkdir(parents=True, exist_ok=True)
     path.write_text(text, encoding="utf-8")
     return path
+
+
+def write_daily_files(frame: pd.DataFrame, folder: Path | str, *, profile: Profile | str | None = None) -> list[Path]:
+    """One Parquet file per vehicle and UTC day (``<vehicle>_<YYYY-MM-DD>.parquet``), as a
+    telematics portal exports a fleet; returns the files in name order."""
+    folder = Path(folder)
+    folder.mkdir(parents=True, exist_ok=True)
+    day = pd.DatetimeIndex(frame[schema.TIME_UTC]).tz_convert("UTC").strftime("%Y-%m-%d")
+    keys = frame[schema.VEHICLE_ID].astype(str).str.cat(pd.Series(day, index=frame.index), sep="_")
+    return [write_parquet(part, profile, folder / f"{key}.parquet") for key, part in frame.groupby(keys, sort=True)]

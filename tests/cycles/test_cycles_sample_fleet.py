@@ -47,6 +47,40 @@ def test_fuel_on_weighted_cycles_matches_the_full_logs_fleet_wide(run: pipeline.
     assert (types["relative_error"].abs() <= 0.05).all(), types.to_string()
 
 
+def test_fuel_check_covers_all_driving_at_the_cycle_step(run: pipeline.CyclesResult) -> None:
+    # sample_logs/README.md: TRK-02 logs every 30 s, every other vehicle every 1-5 s (the clean
+    # stage resamples those to 1 s). The check covers every micro-trip at the cycle step, the runs
+    # the tractors' logs cut at gaps while moving on the motorway included; TRK-02 is weighted
+    # (in the types' distance) but not simulated at its 30 s step.
+    mts = run.cycles.microtrips
+    fleet = run.fuel_check.loc[run.fuel_check["scope"] == "fleet"].iloc[0]
+    one_second = mts.loc[mts[schema.VEHICLE_ID] != "TRK-02"]
+    assert fleet["distance_km"] == pytest.approx(one_second["distance_m"].sum() / 1000, rel=1e-9)
+    assert not mts.loc[mts[schema.VEHICLE_ID] == "TRK-02", "measured"].any()
+    cut_while_moving = mts.loc[mts["measured"] & ~mts["eligible"]]
+    trunk = cut_while_moving.loc[cut_while_moving[schema.VEHICLE_ID] == "TRK-01", "distance_m"].sum() / 1000
+    assert trunk > 400  # measured: 452 km of TRK-01's trunk runs start or end moving
+    w = run.cycles.weights
+    assert w.loc[w["level"] == "fleet", "distance_km"].sum() == pytest.approx(mts["distance_m"].sum() / 1000, rel=1e-9)
+
+
+def test_each_route_is_checked_on_all_its_measured_km(run: pipeline.CyclesResult) -> None:
+    # Each route's prediction uses its own type mix over all its micro-trips at the cycle step
+    # (TRK-02's 30 s log aside, sample_logs/README.md), distance-weighted like the per-metre cycle
+    # rates. Issue 4 goal is 5 % per route; on the sample fleet it is NOT met by every route:
+    # routes driven unlike their types' average (the pool car at 66 km/h on the motorway type,
+    # the rigid over the Corvey pass) miss it by up to about 14 % (measured, seed 0), and
+    # near-boundary routes move with the cycles' selection. This bound guards against regressions
+    # (our choice, measured worst plus a margin), it is not the goal.
+    mts = run.cycles.microtrips
+    rows = run.fuel_check.loc[run.fuel_check["scope"] == "route"].set_index("key")
+    measured = mts.loc[mts["measured"]]
+    km = measured.groupby(measured[schema.ROUTE].astype(str))["distance_m"].sum() / 1000
+    pd.testing.assert_series_equal(rows["distance_km"], km.reindex(rows.index), check_names=False, rtol=1e-9)
+    assert set(rows.index) == set(run.routes[schema.ROUTE])
+    assert (rows["relative_error"].abs() <= 0.15).all(), rows["relative_error"].to_string()
+
+
 def test_cycles_built_without_the_last_day_predict_it(run: pipeline.CyclesResult) -> None:
     # Issue 4 goal: the held-out day's simulated fuel predicted within 5 %. The sample fleet is a
     # working week, 2025-03-10 to 2025-03-14 (sample_logs/README.md): Friday is held out.

@@ -41,9 +41,12 @@ def test_sections_assumptions_and_cautions(result) -> None:
         assert heading in page
     for key in result.assumptions:
         assert key in page
-    for caution in ("estimates", "not\nguarantees", "legal masses", "gradeability", "range reserves"):
+    for caution in ("estimates", "not\nguarantees", "legal masses", "gradeability", "braking", "range reserves",
+                    "licensed practice"):
         assert caution in page
     # the answer names rank 1 of each class; the feasibility note gives the reason
     assert "<strong>van_diesel</strong>" in page and "<strong>truck_diesel</strong>" in page
     assert "@worst shift needs 95 kWh" in page
     assert "files: 2, usable files: 1, failed files: 1" in page
+    # the report says which figure the ranking used
+    assert "Ranking figure used: tco_per_year" in page

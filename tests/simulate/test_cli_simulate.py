@@ -3,13 +3,14 @@
 from __future__ import annotations
 
 import json
+import re
 from pathlib import Path
 
 import numpy as np
 import pytest
 from simtraces import MODELS
 
-from fleetfuel.cli import main
+from fleetfuel.cli import build_parser, main
 
 JSON_KEYS = {"duration_s", "distance_km", "wheel_energy_kwh", "fuel_l", "fuel_kg", "fuel_l_per_100km", "battery_kwh",
              "grid_kwh", "co2_kg", "shortfall_s", "max_speed_deficit_kmh", "gear_changes"}
@@ -85,7 +86,8 @@ def test_text_output_names_spec_and_shortfall(tmp_path: Path, capsys: pytest.Cap
     ("content", "code", "message"),
     [
         ("time_s,speed_kmh\n0,0\n1,abc\n2,5\n", 3, "row 1"),
-        ("time_s,colour\n0,red\n", 3, ""),
+        ("time_s,colour\n0,red\n", 3, "--cycle FILE reads a CSV with columns time_s and speed_m_s or speed_kmh"),
+        ("t,v\n0,1\n1,2\n", 3, "found columns ['t', 'v']"),
     ],
 )
 def test_bad_cycle_files_give_one_line_errors(tmp_path: Path, capsys: pytest.CaptureFixture[str], content: str,
@@ -95,6 +97,11 @@ def test_bad_cycle_files_give_one_line_errors(tmp_path: Path, capsys: pytest.Cap
     assert main(["simulate", "--cycle", str(cycle), "--spec", str(MODELS / "van_diesel.toml")]) == code
     err = capsys.readouterr().err
     assert err.startswith("fleetfuel: ") and err.count("\n") == 1 and message in err and "bad.csv" in err
+    # every option the message names is one the simulate verb has (it has no --profile)
+    assert "--profile" not in err
+    verbs = next(a for a in build_parser()._subparsers._group_actions if a.dest == "verb").choices
+    simulate_options = {o for action in verbs["simulate"]._actions for o in action.option_strings}
+    assert set(re.findall(r"--[a-z-]+", err)) <= simulate_options
 
 
 def test_bad_spec_and_excess_payload(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:

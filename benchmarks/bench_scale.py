@@ -1,0 +1,133 @@
+"""Benchmark: how the partitioned read-clean-segment pass scales with fleet size and workers.
+
+Fleets come from the shared generator (``fleetfuel.synth.fleet``), written as one Parquet file
+per vehicle and day. Every measurement runs in a fresh child process (``--child``), which runs
+:func:`fleetfuel.engine.stream.prepare_fleet` and prints its figures as JSON: wall time, rows,
+the driver's peak RSS and each worker's peak RSS (from the task log).
+
+1. Rows per second at three fleet sizes (default 10, 30 and 100 vehicle-weeks of 5 working
+   days), one worker process: the cost growth slope d log(time) / d log(rows) (target 0.9-1.1).
+2. Two worker processes against one on the largest fleet, each worker single-threaded (BLAS,
+   OpenMP and pyarrow pools pinned to one thread in both runs): speed-up (target >= 1.7x on 2 cores).
+3. The same on a 2-worker Dask LocalCluster.
+4. Peak RSS per worker for the largest size; the work folder's Parquet dataset size against the
+   raw input size.
+
+Usage: ``python benchmarks/bench_scale.py [--weeks 10 30 100] [--seed S]``
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import resource
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+import numpy as np
+
+ROOT = Path(__file__).resolve().parents[1]
+sys.path.insert(0, str(ROOT))
+
+MIB = 1024.0 * 1024.0
+KIB = 1024  # ru_maxrss is in KiB on Linux
+DAYS_PER_WEEK = 5  # working days
+ONE_THREAD = {name: "1" for name in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS", "NUMBA_NUM_THREADS")}
+
+
+def child(paths: list[str], work: str, kind: str, workers: int) -> None:
+    """Run the partitioned pass once and print its figures (JSON) on stdout."""
+    import dataclasses
+
+    from fleetfuel.config import RunConfig
+    from fleetfuel.engine.config import EngineConfig
+    from fleetfuel.engine.executors import make_engine, pin_threads
+    from fleetfuel.engine.stream import prepare_fleet
+
+    pin_threads()
+    cfg = dataclasses.replace(RunConfig(), engine=EngineConfig(kind=kind, workers=workers))
+    with make_engine(cfg.engine) as engine:
+        start = time.perf_counter()
+        fleet = prepare_fleet(paths, cfg, work, engine)
+        wall = time.perf_counter() - start
+    tasks = fleet.tasks()
+    peaks = tasks.groupby("worker")["peak_rss_bytes"].max() / MIB
+    folder = Path(work)
+    dataset = sum(p.stat().st_size for name in ("samples", "features", "trips") for p in (folder / name).rglob("*.parquet"))
+    raw = sum(p.stat().st_size for p in (folder / "raw").rglob("*.parquet"))
+    print(json.dumps({
+        "wall_s": wall, "rows_in": int(fleet.account["rows_in"].sum()), "partitions": len(fleet.partitions),
+        "driver_peak_mib": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss * KIB / MIB,
+        "worker_peak_mib": peaks.to_dict(), "dataset_bytes": dataset, "raw_copy_bytes": raw,
+        "workers_used": int(tasks.loc[tasks["stage"] == "clean", "worker"].nunique()),
+    }))
+
+
+def measure(paths: list[Path], work: Path, kind: str, workers: int) -> dict:
+    env = {**os.environ, **ONE_THREAD, "PYTHONPATH": str(ROOT) + os.pathsep + os.environ.get("PYTHONPATH", "")}
+    cmd = [sys.executable, str(Path(__file__).resolve()), "--child", kind, str(workers), str(work), *map(str, paths)]
+    out = subprocess.run(cmd, env=env, capture_output=True, text=True, check=False)
+    if out.returncode != 0:
+        raise SystemExit(f"child failed ({kind}, {workers}): {out.stderr.strip().splitlines()[-1:]}")
+    return json.loads(out.stdout.strip().splitlines()[-1])
+
+
+def make_fleet(folder: Path, vehicle_weeks: int, seed: int) -> tuple[Path, int]:
+    """Generated fleet of ``vehicle_weeks`` (vehicles x one working week); (folder, input bytes)."""
+    from fleetfuel import synth
+
+    samples = synth.fleet(n_vehicles=vehicle_weeks, n_days=DAYS_PER_WEEK, seed=seed,
+                          with_truth=False).samples
+    files = synth.write_daily_files(samples, folder)
+    return folder, sum(p.stat().st_size for p in files)
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--weeks", type=int, nargs=3, default=[10, 30, 100], help="fleet sizes in vehicle-weeks")
+    parser.add_argument("--seed", type=int, default=20250310)
+    parser.add_argument("--child", nargs="+", help=argparse.SUPPRESS)
+    args = parser.parse_args(argv)
+    if args.child:
+        kind, workers, work, *paths = args.child
+        child(paths, work, kind, int(workers))
+        return 0
+    print(f"machine: {os.cpu_count()} CPUs; python {sys.version.split()[0]}")
+    with tempfile.TemporaryDirectory(prefix="fleetfuel-bench-scale-") as tmp:
+        base = Path(tmp)
+        runs = []
+        for weeks in args.weeks:
+            folder, size = make_fleet(base / f"fleet_{weeks}", weeks, args.seed)
+            got = measure([folder], base / f"work_{weeks}_1", "processes", 1)
+            runs.append((weeks, size, got))
+            print(f"{weeks:4d} vehicle-weeks: {got['rows_in']:>9,} rows in {got['partitions']:4d} partitions, "
+                  f"{got['wall_s']:6.1f} s, {got['rows_in'] / got['wall_s']:9,.0f} rows/s (1 worker)")
+        rows = np.array([r[2]["rows_in"] for r in runs], dtype=float)
+        wall = np.array([r[2]["wall_s"] for r in runs], dtype=float)
+        slope = float(np.polyfit(np.log(rows), np.log(wall), 1)[0])
+        verdict = "meets" if 0.9 <= slope <= 1.1 else "misses"
+        print(f"cost growth slope d log(time)/d log(rows): {slope:.2f} ({verdict} the 0.9-1.1 target)")
+        weeks, size, one = runs[-1]
+        folder = base / f"fleet_{weeks}"
+        two = measure([folder], base / f"work_{weeks}_2", "processes", 2)
+        speedup = one["wall_s"] / two["wall_s"]
+        verdict = "meets" if speedup >= 1.7 else "misses"
+        print(f"2 worker processes vs 1 on {weeks} vehicle-weeks: {two['wall_s']:.1f} s vs {one['wall_s']:.1f} s, "
+              f"speed-up {speedup:.2f}x ({verdict} the 1.7x target); workers used {two['workers_used']}")
+        dask = measure([folder], base / f"work_{weeks}_dask", "dask", 2)
+        print(f"2-worker Dask LocalCluster: {dask['wall_s']:.1f} s, speed-up {one['wall_s'] / dask['wall_s']:.2f}x "
+              f"vs 1 process; workers used {dask['workers_used']}")
+        for label, got in (("1 process", one), ("2 processes", two), ("dask 2", dask)):
+            peaks = ", ".join(f"{v:.0f}" for v in sorted(got["worker_peak_mib"].values()))
+            print(f"peak RSS ({label}): driver {got['driver_peak_mib']:.0f} MiB, workers [{peaks}] MiB")
+        print(f"input {size / MIB:.1f} MiB; Parquet dataset (samples, features, trips) {one['dataset_bytes'] / MIB:.1f} MiB "
+              f"({one['dataset_bytes'] / size:.2f}x the input); raw copy {one['raw_copy_bytes'] / MIB:.1f} MiB")
+    return 0
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())

@@ -1,0 +1,212 @@
+"""Where partition tasks run: in this process, in a pool of local processes, or on a Dask cluster.
+
+Every engine offers the same :meth:`Engine.map`: apply a top-level function to a list of small
+task descriptions (paths, keys, configs; never large frames) and return the small results in the
+order of the list. Tasks read their inputs from and write their outputs to the work folder, so
+what crosses a process or network boundary is a few kilobytes per partition. Results therefore
+cannot depend on the engine, on the worker count or on the order tasks finish in.
+
+Each task runs with one BLAS/OpenMP thread (:func:`threadpoolctl.threadpool_limits`), and in
+worker processes pyarrow's thread pools are pinned to one as well, so a worker is one core.
+"""
+
+from __future__ import annotations
+
+import os
+import resource
+import socket
+import time
+import uuid
+from collections.abc import Callable, Iterator, Sequence
+from concurrent.futures import ProcessPoolExecutor
+from dataclasses import dataclass
+from multiprocessing import get_context
+from typing import Any, Generic, TypeVar
+
+from threadpoolctl import threadpool_limits
+
+from fleetfuel.engine.config import EngineConfig
+from fleetfuel.errors import ConfigError
+
+KIB = 1024  # ru_maxrss is in KiB on Linux
+T = TypeVar("T")
+R = TypeVar("R")
+
+
+@dataclass(frozen=True, slots=True)
+class TaskRecord:
+    """One finished task: its stage and key, the worker that ran it, its wall time [s] and the
+    worker process's peak resident memory so far [bytes]."""
+
+    stage: str
+    key: str
+    worker: str
+    seconds: float
+    peak_rss_bytes: int
+
+
+@dataclass(frozen=True, slots=True)
+class Outcome(Generic[R]):
+    """A task's result and its record."""
+
+    value: R
+    record: TaskRecord
+
+
+def worker_name() -> str:
+    """The Dask worker's address inside a Dask task, else ``host:pid`` of this process."""
+    try:
+        from distributed import get_worker
+
+        return str(get_worker().address)
+    except (ImportError, ValueError):
+        return f"{socket.gethostname()}:{os.getpid()}"
+
+
+def pin_threads() -> None:
+    """One thread for pyarrow's CPU and I/O pools (a worker process is one core)."""
+    import pyarrow as pa
+
+    pa.set_cpu_count(1)
+    pa.set_io_thread_count(1)
+
+
+def run_task(fn: Callable[[T], R], stage: str, key: str, item: T) -> Outcome[R]:
+    """Run ``fn(item)`` with one BLAS thread and time it (what every engine calls per task)."""
+    start = time.perf_counter()
+    with threadpool_limits(limits=1):
+        value = fn(item)
+    peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss * KIB
+    return Outcome(value, TaskRecord(stage, key, worker_name(), time.perf_counter() - start, peak))
+
+
+class Engine:
+    """The in-process engine: tasks one after another (the default; tests and the demo use it)."""
+
+    kind = "local"
+
+    def __init__(self) -> None:
+        self.records: list[TaskRecord] = []
+
+    def __enter__(self) -> Engine:
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self.close()
+
+    def close(self) -> None:
+        """Release workers (nothing to release here)."""
+
+    @property
+    def workers(self) -> int:
+        """Partitions run at the same time."""
+        return 1
+
+    def map(self, fn: Callable[[T], R], items: Sequence[T], keys: Sequence[str], stage: str) -> list[R]:
+        """``[fn(item) for item in items]``, run where this engine runs tasks, in the items' order.
+
+        ``fn`` must be a module-level function (or a :func:`functools.partial` of one) so that it
+        can be sent to a worker; ``keys`` name the tasks in the task log.
+        """
+        if len(keys) != len(items):
+            raise ValueError(f"engine.map: {len(items)} items but {len(keys)} keys")
+        values = []
+        for outcome in self._run(fn, list(items), list(keys), stage):  # records kept as tasks finish
+            self.records.append(outcome.record)
+            values.append(outcome.value)
+        return values
+
+    def _run(self, fn: Callable[[T], R], items: list[T], keys: list[str], stage: str) -> Iterator[Outcome[R]]:
+        return (run_task(fn, stage, k, item) for k, item in zip(keys, items, strict=True))
+
+
+def _init_process() -> None:
+    pin_threads()
+
+
+class ProcessEngine(Engine):
+    """A pool of ``workers`` local processes (``spawn``: no threads inherited half-way)."""
+
+    kind = "processes"
+
+    def __init__(self, workers: int) -> None:
+        super().__init__()
+        self._workers = workers
+        self._pool = ProcessPoolExecutor(max_workers=workers, mp_context=get_context("spawn"),
+                                         initializer=_init_process)
+
+    @property
+    def workers(self) -> int:
+        return self._workers
+
+    def close(self) -> None:
+        self._pool.shutdown(wait=True, cancel_futures=True)
+
+    def _run(self, fn: Callable[[T], R], items: list[T], keys: list[str], stage: str) -> Iterator[Outcome[R]]:
+        futures = [self._pool.submit(run_task, fn, stage, k, item) for k, item in zip(keys, items, strict=True)]
+        return (f.result() for f in futures)
+
+
+class DaskEngine(Engine):
+    """Dask distributed: futures over partitions on a ``LocalCluster`` or an existing scheduler.
+
+    A task whose worker dies is run again on another worker (``retries``); the scheduler, not
+    this class, decides where and when tasks run.
+    """
+
+    kind = "dask"
+
+    def __init__(self, workers: int, scheduler: str = "", memory_limit_bytes: int = 0, retries: int = 3) -> None:
+        super().__init__()
+        try:
+            from distributed import Client, LocalCluster
+        except ImportError as exc:  # pragma: no cover - a declared dependency
+            raise ConfigError(f"engine.kind = 'dask' needs the distributed package ({exc})") from None
+        self._retries = retries
+        self._cluster = None
+        if scheduler:
+            try:
+                self._client = Client(scheduler, timeout="20s")
+            except OSError as exc:
+                raise ConfigError(f"--scheduler {scheduler}: cannot reach the Dask scheduler ({exc})") from None
+        else:
+            self._cluster = LocalCluster(
+                n_workers=workers, threads_per_worker=1, processes=True, dashboard_address=None,
+                host="127.0.0.1", memory_limit=memory_limit_bytes or "auto", silence_logs=40,
+            )
+            self._client = Client(self._cluster)
+        from fleetfuel.engine.dask_worker import PinThreads
+
+        self._client.register_plugin(PinThreads())
+
+    @property
+    def client(self) -> Any:
+        """The ``distributed.Client`` (tests use it to find and stop workers)."""
+        return self._client
+
+    @property
+    def workers(self) -> int:
+        return max(1, len(self._client.scheduler_info().get("workers", {})))
+
+    def close(self) -> None:
+        self._client.close()
+        if self._cluster is not None:
+            self._cluster.close()
+
+    def _run(self, fn: Callable[[T], R], items: list[T], keys: list[str], stage: str) -> Iterator[Outcome[R]]:
+        token = uuid.uuid4().hex[:8]
+        names = [f"{stage}-{k}-{token}" for k in keys]
+        futures = [
+            self._client.submit(run_task, fn, stage, k, item, key=name, pure=False, retries=self._retries)
+            for k, item, name in zip(keys, items, names, strict=True)
+        ]
+        return iter(self._client.gather(futures))
+
+
+def make_engine(cfg: EngineConfig) -> Engine:
+    """The engine ``cfg`` asks for (close it, or use it as a context manager)."""
+    if cfg.kind == "dask":
+        return DaskEngine(cfg.workers, cfg.scheduler, cfg.memory_limit_bytes, cfg.retries)
+    if cfg.kind == "processes":
+        return ProcessEngine(cfg.workers)
+    return Engine()

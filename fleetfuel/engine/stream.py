@@ -1,0 +1,187 @@
+"""Read, clean and segment a fleet partition by partition, on any engine, into the work folder.
+
+:func:`prepare_fleet` runs three rounds of tasks (:mod:`fleetfuel.engine.tasks`): read every
+input path, cut every vehicle into windows, clean and segment every window. Only facts come back
+to the driver; the rows stay in the work folder's Parquet dataset, from where
+:class:`PreparedFleet` reads them back (all of them, a few columns, or the feature and trip
+tables only). The row account is built from the per-file facts and per-partition summaries.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+from functools import cached_property
+from pathlib import Path
+from typing import Any
+
+import pandas as pd
+
+from fleetfuel import __version__, schema
+from fleetfuel.clean.account import build_account
+from fleetfuel.clean.vehicle import CLEAN_COLUMNS, empty_clean_frame
+from fleetfuel.engine.executors import Engine
+from fleetfuel.engine.tasks import (
+    CleanJob,
+    PlanJob,
+    ReadJob,
+    Window,
+    clean_partition,
+    plan_vehicle,
+    read_file,
+)
+from fleetfuel.engine.workdir import WorkFolder, file_fingerprint, read_frames, read_json
+from fleetfuel.ingest.base import FileFailure, LogBatch, LogFile, empty_dropped, empty_raw_frame
+from fleetfuel.ingest.dispatch import expand_paths
+from fleetfuel.ingest.profiles import load_profile
+
+
+@dataclass(frozen=True)
+class PreparedFleet:
+    """A fleet read, cleaned and segmented into the work folder.
+
+    Attributes
+    ----------
+    work : WorkFolder
+    account : DataFrame
+        Row account, one row per input file (:data:`fleetfuel.clean.ACCOUNT_TABLE_COLUMNS`).
+    failures : tuple of FileFailure
+    partitions : tuple of Window
+        In output order: vehicles sorted by id (no vehicle last), windows in time order.
+    resumed : int
+        Partitions a previous run had finished and this one kept.
+    clean_rows : int
+        Clean samples in all partitions.
+    """
+
+    work: WorkFolder
+    account: pd.DataFrame
+    failures: tuple[FileFailure, ...]
+    partitions: tuple[Window, ...]
+    resumed: int
+    clean_rows: int
+
+    def _paths(self, name: str) -> list[Path]:
+        return [self.work.table(name, w.key) for w in self.partitions]
+
+    def samples(self, columns: Sequence[str] | None = None) -> pd.DataFrame:
+        """Clean, segmented samples of every partition (sorted by vehicle and time)."""
+        frame = read_frames(self._paths("samples"), columns)
+        if frame is None:
+            empty = empty_clean_frame()
+            for name in schema.SEGMENT_ID_COLUMNS:
+                empty[name] = pd.Series([], dtype="string")
+            return empty if columns is None else empty[list(columns)]
+        return frame
+
+    @cached_property
+    def features(self) -> pd.DataFrame:
+        """Micro-trip feature table of every partition (sorted by vehicle and start time)."""
+        frame = read_frames(self._paths("features"))
+        return pd.DataFrame() if frame is None else frame
+
+    @cached_property
+    def trips(self) -> pd.DataFrame:
+        """Trip table of every partition (sorted by vehicle and start time)."""
+        frame = read_frames(self._paths("trips"))
+        return pd.DataFrame() if frame is None else frame
+
+    def tasks(self) -> pd.DataFrame:
+        """The task log (stage, key, worker, seconds) of every run into this work folder."""
+        return self.work.tasks()
+
+
+def fingerprint(paths: Sequence[Path], settings: Sequence[Any]) -> dict[str, Any]:
+    """What a resumed run must share with the run it resumes: inputs, settings and version."""
+    return {"version": __version__, "inputs": file_fingerprint(paths), "settings": [repr(s) for s in settings]}
+
+
+def _read_round(files: list[Path], cfg: Any, work: WorkFolder, engine: Engine, keep: bool) -> list[dict[str, Any]]:
+    todo = [n for n in range(len(files)) if not (keep and work.raw(n, ".json").is_file())]
+    jobs = [ReadJob(str(files[n]), n, cfg.ingest, str(work.root)) for n in todo]
+    engine.map(read_file, jobs, [f"{n:06d}" for n in todo], "read")
+    return [read_json(work.raw(n, ".json")) for n in range(len(files))]
+
+
+def _log_files(facts: list[dict[str, Any]]) -> tuple[list[dict[str, Any]], list[FileFailure]]:
+    files = sorted((f for fact in facts for f in fact["files"]), key=lambda f: f["path"])
+    failures = sorted((FileFailure(Path(f["path"]), f["error"]) for fact in facts for f in fact["failures"]),
+                      key=lambda f: str(f.path))
+    return files, failures
+
+
+def _plan_round(files: list[dict[str, Any]], cfg: Any, engine: Engine) -> list[Window]:
+    holders: dict[str | None, list[str]] = {}
+    for f in files:  # batch order
+        for vehicle, rows in f["vehicles"]:
+            if rows:
+                holders.setdefault(vehicle, []).append(f["raw"])
+    vehicles = sorted(v for v in holders if v is not None) + ([None] if None in holders else [])
+    jobs = [PlanJob(v, tuple(holders[v]), cfg.segment.period_rest_s, cfg.segment.stop_speed_m_s) for v in vehicles]
+    plans = engine.map(plan_vehicle, jobs, [str(v) for v in vehicles], "plan")
+    return [w for plan in plans for w in plan]
+
+
+def _batch_facts(files: list[dict[str, Any]], failures: list[FileFailure]) -> LogBatch:
+    """A :class:`LogBatch` of the read files' account facts (rows stay in the work folder)."""
+    logs = []
+    for f in files:
+        dropped = read_frames([Path(f["dropped"])])
+        logs.append(LogFile(path=Path(f["path"]), samples=empty_raw_frame(), rows_in=int(f["rows_in"]),
+                            dropped=empty_dropped() if dropped is None else dropped, profile=f["profile"],
+                            flags=tuple(f["flags"])))
+    return LogBatch(files=tuple(logs), failures=tuple(failures))
+
+
+def prepare_fleet(paths: Sequence[str | Path], cfg: Any, work_dir: str | Path, engine: Engine) -> PreparedFleet:
+    """Read, clean and segment every log under ``paths`` into ``work_dir`` with ``engine``.
+
+    Parameters
+    ----------
+    paths : sequence of path
+        Log files, folders (recursive) or globs.
+    cfg : RunConfig
+        ``ingest``, ``clean`` and ``segment`` settings; ``engine.resume`` keeps finished partitions.
+    work_dir : path
+        The work folder (created; its datasets replaced unless resuming the same run).
+    engine : Engine
+        Where the tasks run.
+
+    Raises
+    ------
+    ProfileError
+        A forced profile that is unknown or malformed (the one error that stops the batch).
+    OutputError
+        The work folder cannot be written.
+    """
+    if cfg.ingest.profile:
+        load_profile(cfg.ingest.profile)
+    files = expand_paths(paths)
+    work = WorkFolder(Path(work_dir))
+    keep = work.begin(fingerprint(files, (cfg.ingest, cfg.clean, cfg.segment)), cfg.engine.resume)
+    facts = _read_round(files, cfg, work, engine, keep)
+    logs, failures = _log_files(facts)
+    windows = _plan_round(logs, cfg, engine)
+    todo = [w for w in windows if not (keep and work.done(w.key).is_file())]
+    jobs = [CleanJob(w, cfg.clean, cfg.segment, str(work.root)) for w in todo]
+    try:
+        engine.map(clean_partition, jobs, [w.key for w in todo], "clean")
+    finally:  # an interrupted run's finished tasks are in the log too
+        work.log_tasks(engine.records)
+        engine.records.clear()
+    summary = read_frames([work.table("summary", w.key) for w in windows])
+    dropped = read_frames([work.table("dropped", w.key) for w in windows], (schema.SOURCE_FILE, "reason"))
+    account = build_account(
+        _batch_facts(logs, failures),
+        pd.DataFrame() if summary is None else summary,
+        pd.DataFrame(columns=[schema.SOURCE_FILE, "reason"]) if dropped is None else dropped,
+    )
+    rows = sum(int(read_json(work.done(w.key))["samples"]) for w in windows)
+    return PreparedFleet(work=work, account=account, failures=tuple(failures), partitions=tuple(windows),
+                         resumed=len(windows) - len(todo), clean_rows=rows)
+
+
+def clean_columns(frame: pd.DataFrame) -> pd.DataFrame:
+    """``frame`` restricted to the clean frame's columns (segment ids dropped)."""
+    return frame[list(CLEAN_COLUMNS)]
+

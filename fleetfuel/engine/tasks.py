@@ -1,0 +1,186 @@
+"""The per-partition tasks: module-level functions of small, picklable job descriptions.
+
+Each task reads its inputs from the work folder (or the input file), writes its outputs there
+and returns a few facts. Nothing large travels between the driver and the workers.
+
+``read_file``
+    one input path (every CSV member of a zip): raw canonical rows, reader drops, account facts;
+``plan_vehicle``
+    one vehicle: its raw times and speeds from every file, cut into windows
+    (:mod:`fleetfuel.engine.partition`);
+``clean_partition``
+    one window: clean (:func:`fleetfuel.clean.clean_vehicle`), segment into periods, trips and
+    micro-trips, micro-trip features and trip table.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+import pyarrow.compute as pc
+import pyarrow.parquet as pq
+
+from fleetfuel import clean, schema, segment
+from fleetfuel.clean.config import CleanConfig
+from fleetfuel.engine.partition import partition_key, window_cuts, window_of
+from fleetfuel.engine.workdir import WorkFolder, typed, write_frame, write_json
+from fleetfuel.ingest.base import empty_raw_frame
+from fleetfuel.ingest.config import IngestConfig
+from fleetfuel.ingest.dispatch import read_path
+from fleetfuel.segment.config import SegmentConfig
+
+_TIME_TYPE = pa.timestamp("ns", tz="UTC")
+
+
+@dataclass(frozen=True, slots=True)
+class ReadJob:
+    """Read input ``path`` (number ``number`` in the sorted input list) into ``work``."""
+
+    path: str
+    number: int
+    ingest: IngestConfig
+    work: str
+
+
+def read_file(job: ReadJob) -> dict[str, Any]:
+    """Read one input path; write each read file's raw rows and reader drops; return its facts.
+
+    Returns (and writes as ``raw/<n>.json``) ``{"files": [...], "failures": [...]}``: per read
+    file its ``path``, ``raw`` (Parquet of its rows), ``dropped``, ``rows_in``, ``profile``,
+    ``flags`` and ``vehicles`` (vehicle id or None -> rows); per failure ``path`` and ``error``.
+    """
+    work = WorkFolder(Path(job.work))
+    files, failures = read_path(Path(job.path), job.ingest)
+    facts = []
+    for member, log in enumerate(files):
+        raw = work.raw(job.number, f"-{member:03d}.parquet")
+        dropped = work.raw(job.number, f"-{member:03d}.dropped.parquet")
+        write_frame(raw, log.samples)
+        write_frame(dropped, log.dropped)
+        counts = log.samples[schema.VEHICLE_ID].value_counts(dropna=False, sort=False)
+        facts.append({
+            "path": str(log.path), "raw": str(raw), "dropped": str(dropped), "rows_in": int(log.rows_in),
+            "profile": log.profile, "flags": list(log.flags),
+            "vehicles": [[None if pd.isna(v) else str(v), int(n)] for v, n in counts.items()],
+        })
+    out = {"files": facts, "failures": [{"path": str(f.path), "error": f.error} for f in failures]}
+    write_json(work.raw(job.number, ".json"), out)
+    return out
+
+
+def _vehicle_filter(vehicle_id: str | None) -> pc.Expression:
+    field = pc.field(schema.VEHICLE_ID)
+    return field.is_null() if vehicle_id is None else field == vehicle_id
+
+
+@dataclass(frozen=True, slots=True)
+class PlanJob:
+    """Cut vehicle ``vehicle_id``'s samples in ``raw`` (Parquet files, batch order) into windows."""
+
+    vehicle_id: str | None
+    raw: tuple[str, ...]
+    rest_s: float
+    stop_speed_m_s: float
+
+
+@dataclass(frozen=True, slots=True)
+class Window:
+    """One partition: a vehicle's samples with ``lo_ns <= t < hi_ns`` (None: open), untimed rows too when ``untimed``."""
+
+    key: str
+    vehicle_id: str | None
+    raw: tuple[str, ...]
+    lo_ns: int | None
+    hi_ns: int | None
+    untimed: bool
+    rows: int
+
+
+def plan_vehicle(job: PlanJob) -> list[Window]:
+    """The windows of one vehicle (see :func:`fleetfuel.engine.partition.window_cuts`)."""
+    cols = [schema.TIME_UTC, schema.SPEED_M_S]
+    tables = [pq.read_table(p, columns=cols, filters=_vehicle_filter(job.vehicle_id)) for p in job.raw]
+    table = pa.concat_tables(tables) if tables else pa.table({c: [] for c in cols})
+    valid = pc.is_valid(table.column(schema.TIME_UTC))
+    untimed = table.num_rows - int(pc.sum(valid).as_py() or 0)
+    table = table.filter(valid)
+    t_ns = table.column(schema.TIME_UTC).cast(_TIME_TYPE).cast(pa.int64()).to_numpy(zero_copy_only=False)
+    t_ns = np.asarray(t_ns, dtype=np.int64)
+    speed = np.asarray(table.column(schema.SPEED_M_S).to_numpy(zero_copy_only=False), dtype=np.float64)
+    cuts = window_cuts(t_ns, speed, job.rest_s, job.stop_speed_m_s) if job.vehicle_id is not None else np.zeros(0, np.int64)
+    if t_ns.size == 0:
+        return [Window(partition_key(job.vehicle_id, None), job.vehicle_id, job.raw, None, None, True, untimed)]
+    number = window_of(t_ns, cuts)
+    rows = np.bincount(number, minlength=cuts.size + 1)
+    first = pd.Series(t_ns).groupby(number).min()
+    bounds = [None, *cuts.tolist(), None]
+    out = []
+    for k in range(cuts.size + 1):
+        start = pd.Timestamp(int(first.loc[k]), tz="UTC") if k in first.index else None
+        extra = untimed if k == 0 else 0
+        out.append(Window(partition_key(job.vehicle_id, start), job.vehicle_id, job.raw, bounds[k], bounds[k + 1],
+                          k == 0, int(rows[k]) + extra))
+    return out
+
+
+@dataclass(frozen=True, slots=True)
+class CleanJob:
+    """Clean and segment window ``window`` into ``work``."""
+
+    window: Window
+    clean: CleanConfig
+    segment: SegmentConfig
+    work: str
+
+
+def _window_filter(w: Window) -> pc.Expression:
+    time = pc.field(schema.TIME_UTC)
+    in_window = pc.scalar(True)
+    if w.lo_ns is not None:
+        in_window = in_window & (time >= pa.scalar(w.lo_ns, _TIME_TYPE))
+    if w.hi_ns is not None:
+        in_window = in_window & (time < pa.scalar(w.hi_ns, _TIME_TYPE))
+    if w.untimed:
+        in_window = in_window | time.is_null()
+    return _vehicle_filter(w.vehicle_id) & in_window
+
+
+def window_rows(w: Window) -> pd.DataFrame:
+    """The raw rows of window ``w``: files in batch order, rows in file order."""
+    expr = _window_filter(w)
+    parts = []
+    for path in w.raw:
+        table = pq.read_table(path, filters=expr)
+        if table.num_rows:
+            order = pc.sort_indices(table, sort_keys=[(schema.SOURCE_ROW, "ascending")])
+            parts.append(table.take(order))
+    if not parts:
+        return empty_raw_frame()
+    return typed(pa.concat_tables(parts, promote_options="default").to_pandas())
+
+
+def clean_partition(job: CleanJob) -> dict[str, Any]:
+    """Clean and segment one window; write its tables and, last, its done marker; return counts."""
+    work = WorkFolder(Path(job.work))
+    key = job.window.key
+    rows = window_rows(job.window)
+    done = clean.clean_vehicle(rows, job.clean)
+    samples = done.samples
+    if len(samples):
+        samples = segment.split_microtrips(samples, job.segment).reset_index(drop=True)
+        features = segment.microtrip_features(samples, job.segment)
+        trips = segment.trip_table(samples, job.segment)
+    else:
+        features, trips = pd.DataFrame(), pd.DataFrame()
+    for name, frame in (("samples", samples), ("features", features), ("trips", trips),
+                        ("summary", done.files), ("dropped", done.dropped)):
+        write_frame(work.table(name, key), frame)
+    facts = {"key": key, "rows_in": len(rows), "rows_kept": int(len(rows) - len(done.dropped)),
+             "samples": len(samples), "microtrips": len(features), "trips": len(trips)}
+    write_json(work.done(key), facts)
+    return facts

@@ -1,0 +1,170 @@
+"""The run's work folder: a partitioned Parquet dataset of what the per-partition tasks made.
+
+Layout (``<key>`` is a partition key, ``<vehicle>/<start>``, see :mod:`fleetfuel.engine.partition`)::
+
+    run.json                    inputs (path, size, modification time) and settings of the run
+    raw/<n>.json                facts of input path n (read files, failures, rows in, vehicles)
+    raw/<n>-<m>.parquet         raw canonical rows of its read file m (a zip has several; file order)
+    raw/<n>-<m>.dropped.parquet rows the reader dropped, with the reason
+    samples/<key>.parquet       clean, segmented samples of one partition
+    features/<key>.parquet      its micro-trip feature table
+    trips/<key>.parquet         its trip table
+    summary/<key>.parquet       per-file summary of its cleaning (for the row account)
+    dropped/<key>.parquet       rows its cleaning dropped, with the reason
+    done/<key>.json             written last: the partition is finished
+    tasks.jsonl                 task log: stage, key, worker, seconds, worker's peak RSS
+
+Every file is written to a temporary name and renamed, so a killed run leaves finished files and
+no half-written ones; ``--resume`` keeps what a run of the same inputs and settings finished.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import shutil
+import tempfile
+from collections.abc import Iterable, Sequence
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any, Final
+
+import pandas as pd
+import pyarrow as pa
+import pyarrow.parquet as pq
+
+from fleetfuel import schema
+from fleetfuel.errors import OutputError
+
+PARTITION_TABLES: Final = ("samples", "features", "trips", "summary", "dropped")
+"""Tables every finished partition leaves in the work folder."""
+_FOLDERS: Final = ("raw", *PARTITION_TABLES, "done")
+ROW_GROUP_ROWS: Final = 65_536  # our choice: row groups small enough for predicate push-down
+RUN_FILE: Final = "run.json"
+TASK_LOG: Final = "tasks.jsonl"
+
+
+def _atomic(path: Path, write: Any) -> None:
+    path.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".part")
+    os.close(fd)
+    try:
+        write(tmp)
+        os.chmod(tmp, 0o666 & ~_umask())
+        os.replace(tmp, path)
+    except BaseException:
+        Path(tmp).unlink(missing_ok=True)
+        raise
+
+
+def _umask() -> int:
+    mask = os.umask(0)
+    os.umask(mask)
+    return mask
+
+
+def write_frame(path: Path, frame: pd.DataFrame) -> None:
+    """Write ``frame`` to Parquet at ``path`` atomically (index dropped, row groups for push-down)."""
+    table = pa.Table.from_pandas(frame, preserve_index=False)
+    _atomic(path, lambda tmp: pq.write_table(table, tmp, row_group_size=ROW_GROUP_ROWS))
+
+
+def write_json(path: Path, data: Any) -> None:
+    """Write ``data`` as JSON at ``path`` atomically."""
+    text = json.dumps(data, indent=1, sort_keys=True, default=str)
+    _atomic(path, lambda tmp: Path(tmp).write_text(text, encoding="utf-8"))
+
+
+def read_json(path: Path) -> Any:
+    """The JSON at ``path``."""
+    return json.loads(path.read_text(encoding="utf-8"))
+
+
+def typed(frame: pd.DataFrame) -> pd.DataFrame:
+    """Canonical dtypes after a Parquet round trip: id and text columns as pandas ``string``."""
+    text = (*schema.STRING_COLUMNS, *schema.SEGMENT_ID_COLUMNS, schema.ROUTE_SOURCE)
+    for name in text:
+        if name in frame.columns and frame[name].dtype != pd.StringDtype():
+            frame[name] = frame[name].astype("string")
+    return frame
+
+
+def read_frames(paths: Iterable[Path], columns: Sequence[str] | None = None) -> pd.DataFrame | None:
+    """The Parquet files ``paths`` read and concatenated in the given order (None when there is none)."""
+    parts = [pq.read_table(p, columns=list(columns) if columns else None) for p in paths]
+    parts = [t for t in parts if t.num_rows]
+    if not parts:
+        return None
+    return typed(pa.concat_tables(parts, promote_options="default").to_pandas())
+
+
+@dataclass(frozen=True, slots=True)
+class WorkFolder:
+    """Paths of the work folder rooted at ``root`` (see the module docstring)."""
+
+    root: Path
+
+    def raw(self, number: int, suffix: str = ".parquet") -> Path:
+        """Raw rows (``.parquet``), facts (``.json``) or reader drops (``.dropped.parquet``) of file ``number``."""
+        return self.root / "raw" / f"{number:06d}{suffix}"
+
+    def table(self, name: str, key: str) -> Path:
+        """Partition ``key``'s table ``name`` (one of :data:`PARTITION_TABLES`)."""
+        return self.root / name / f"{key}.parquet"
+
+    def done(self, key: str) -> Path:
+        """Marker of finished partition ``key``."""
+        return self.root / "done" / f"{key}.json"
+
+    @property
+    def task_log(self) -> Path:
+        return self.root / TASK_LOG
+
+    def begin(self, fingerprint: dict[str, Any], resume: bool) -> bool:
+        """Start a run: keep the folder's datasets when resuming the same run, else empty them.
+
+        Returns whether earlier results are kept. Only fleetfuel's own subfolders are removed.
+
+        Raises
+        ------
+        OutputError
+            The work folder cannot be created or written.
+        """
+        run_file = self.root / RUN_FILE
+        try:
+            self.root.mkdir(parents=True, exist_ok=True)
+            same = resume and run_file.is_file() and read_json(run_file) == json.loads(json.dumps(fingerprint, default=str))
+            if not same:
+                for name in _FOLDERS:
+                    shutil.rmtree(self.root / name, ignore_errors=True)
+                self.task_log.unlink(missing_ok=True)
+                write_json(run_file, fingerprint)
+        except (OSError, ValueError) as exc:
+            raise OutputError(f"{self.root}: cannot use as work folder ({type(exc).__name__}: {exc})") from None
+        return bool(same)
+
+    def log_tasks(self, records: Iterable[Any]) -> None:
+        """Append task records (stage, key, worker, seconds) to the task log."""
+        lines = [json.dumps({"stage": r.stage, "key": r.key, "worker": r.worker, "seconds": round(r.seconds, 4),
+                             "peak_rss_bytes": r.peak_rss_bytes}) for r in records]
+        if lines:
+            with self.task_log.open("a", encoding="utf-8") as handle:
+                handle.write("\n".join(lines) + "\n")
+
+    def tasks(self) -> pd.DataFrame:
+        """The task log as a table (``stage, key, worker, seconds, peak_rss_bytes``)."""
+        if not self.task_log.is_file():
+            return pd.DataFrame(columns=["stage", "key", "worker", "seconds", "peak_rss_bytes"])
+        return pd.read_json(self.task_log, lines=True)
+
+
+def file_fingerprint(paths: Sequence[Path]) -> list[list[Any]]:
+    """``[path, size, modification time]`` of each input (a missing file gives ``None`` values)."""
+    out = []
+    for path in paths:
+        try:
+            st = Path(str(path).split("!", 1)[0]).stat()
+            out.append([str(path), st.st_size, st.st_mtime_ns])
+        except OSError:
+            out.append([str(path), None, None])
+    return out
