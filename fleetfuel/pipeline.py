@@ -13,16 +13,16 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING
 
-import numpy as np
 import pandas as pd
 
 from fleetfuel import cycles, schema, segment
 from fleetfuel.clean.vehicle import empty_clean_frame
 from fleetfuel.config import RunConfig
 from fleetfuel.engine.executors import Engine, make_engine
-from fleetfuel.engine.stream import PreparedFleet, clean_columns, prepare_fleet
+from fleetfuel.engine.stream import PreparedFleet, clean_columns, fleet_consumption, prepare_fleet
 from fleetfuel.ingest.base import FileFailure
 from fleetfuel.report import quality
+from fleetfuel.simulate.reference import consumption_model
 
 
 @dataclass(frozen=True, slots=True)
@@ -42,8 +42,9 @@ class InspectResult:
 @contextmanager
 def prepared(
     paths: Sequence[str | Path], cfg: RunConfig, work_dir: str | Path | None = None, engine: Engine | None = None
-) -> Iterator[PreparedFleet]:
-    """Read, clean and segment ``paths`` partition by partition (:func:`fleetfuel.engine.prepare_fleet`).
+) -> Iterator[tuple[PreparedFleet, Engine]]:
+    """Read, clean and segment ``paths`` partition by partition (:func:`fleetfuel.engine.prepare_fleet`);
+    yields the prepared fleet and the engine, for later rounds of tasks.
 
     ``work_dir`` None: a temporary work folder, removed on exit. ``engine`` None: the engine
     ``cfg.engine`` names, started here and closed on exit.
@@ -53,7 +54,7 @@ def prepared(
             work_dir = stack.enter_context(tempfile.TemporaryDirectory(prefix="fleetfuel-work-"))
         if engine is None:
             engine = stack.enter_context(make_engine(cfg.engine))
-        yield prepare_fleet(paths, cfg, work_dir, engine)
+        yield prepare_fleet(paths, cfg, work_dir, engine), engine
 
 
 def _with_profile(cfg: RunConfig | None, profile: str | None) -> RunConfig:
@@ -79,7 +80,7 @@ def inspect_paths(
     empty frame in the result): memory then stays bounded by one partition per worker.
     """
     cfg = _with_profile(cfg, profile)
-    with prepared(paths, cfg, work_dir, engine) as fleet:
+    with prepared(paths, cfg, work_dir, engine) as (fleet, _):
         samples = clean_columns(fleet.samples()) if keep_samples else empty_clean_frame()
         return InspectResult(samples=samples, account=fleet.account, failures=fleet.failures)
 
@@ -138,38 +139,6 @@ class CyclesResult:
     unit: str
 
 
-def _reference_model(name: str, sim_cfg: SimConfig) -> tuple[str, str, cycles.FuelModel]:
-    """The catalogue spec ``name`` (file stem of models/ or a TOML path) as a per-row consumption model.
-
-    Returns the spec's name, the unit (``L`` of liquid fuel, ``kg`` of gas, ``kWh`` out of the
-    battery) and the model :data:`fleetfuel.cycles.FuelModel` (one simulation per trace).
-    """
-    from fleetfuel.constants import JOULES_PER_KWH
-    from fleetfuel.errors import ConfigError
-    from fleetfuel.resources import data_dir
-    from fleetfuel.simulate import load_spec, simulate_trace
-    from fleetfuel.simulate.trace import G_PER_KG
-
-    path = Path(name)
-    if path.suffix != ".toml":
-        path = data_dir("models") / f"{name}.toml"
-    if not path.is_file():
-        known = sorted(p.stem for p in data_dir("models").glob("*.toml"))
-        raise ConfigError(f"cycles.reference_spec: no spec {name!r}; choose a TOML path or one of {known}")
-    spec = load_spec(path)
-    fuel = spec.fuel
-    unit = "kWh" if fuel is None else ("L" if fuel.liquid else "kg")
-
-    def model(time_s: np.ndarray, speed_m_s: np.ndarray, grade: np.ndarray) -> np.ndarray:
-        run = simulate_trace(time_s, speed_m_s, grade, spec, cfg=sim_cfg)
-        if fuel is None:
-            return run.steps.battery_power_w * run.weight_s / JOULES_PER_KWH
-        kg = run.steps.fuel_rate_g_s * run.weight_s / G_PER_KG
-        return kg / fuel.density_kg_l if fuel.liquid else kg
-
-    return spec.name, unit, model
-
-
 def cycles_paths(
     paths: Sequence[str | Path],
     cfg: RunConfig | None = None,
@@ -193,7 +162,7 @@ def cycles_paths(
 
     cfg = _with_profile(cfg, profile)
     cycles_cfg = cycles_cfg or cfg.cycles
-    with prepared(paths, cfg, work_dir, engine) as fleet:
+    with prepared(paths, cfg, work_dir, engine) as (fleet, running):
         if not fleet.clean_rows:
             why = f" ({fleet.failures[0].path}: {fleet.failures[0].error})" if fleet.failures else ""
             raise CycleError(f"too little driving to form cycles: no usable samples in {', '.join(map(str, paths))}{why}")
@@ -201,9 +170,9 @@ def cycles_paths(
             raise CycleError(f"too little driving to form cycles: no micro-trip in {', '.join(map(str, paths))}")
         samples, routes, features = _segmented(fleet, cfg, routes_file)
         account, failures = fleet.account, fleet.failures
-    built = cycles.build_cycles(samples, features, cycles_cfg, cfg.segment)
-    spec_name, unit, model = _reference_model(cycles_cfg.reference_spec, cfg.simulate)
-    consumption = cycles.microtrip_consumption(samples, built.microtrips, model)
+        built = cycles.build_cycles(samples, features, cycles_cfg, cfg.segment)
+        spec_name, unit, model = consumption_model(cycles_cfg.reference_spec, cfg.simulate)
+        consumption = fleet_consumption(fleet, running, built.microtrips, cycles_cfg.reference_spec, cfg.simulate)
     rates = cycles.cycle_rates(built.cycles, model)
     return CyclesResult(
         samples=samples,
@@ -221,7 +190,6 @@ def cycles_paths(
 
 if TYPE_CHECKING:  # the forecast stage is imported when its job runs (keeps the other verbs fast)
     from fleetfuel.forecast import ForecastResult, Progress
-    from fleetfuel.simulate.config import SimConfig
 
 WORK_TABLES = ("routes", "missions", "route_forecast")
 """Intermediate tables the forecast job leaves in the work folder (Parquet), besides micro-trips and cycles."""
@@ -282,7 +250,7 @@ def forecast_inputs(
             progress(done, len(FORECAST_STAGES), FORECAST_STAGES[min(done, len(FORECAST_STAGES) - 1)])
 
     step(0)
-    with prepared(paths, cfg, work_dir, engine) as fleet:
+    with prepared(paths, cfg, work_dir, engine) as (fleet, _):
         if not fleet.clean_rows:
             raise InputDataError(f"no usable samples in {', '.join(map(str, paths))}: every file failed or was empty")
         step(1)

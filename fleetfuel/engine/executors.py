@@ -29,6 +29,7 @@ from fleetfuel.engine.config import EngineConfig
 from fleetfuel.errors import ConfigError
 
 KIB = 1024  # ru_maxrss is in KiB on Linux
+CONNECT_TIMEOUT_S = 10  # our choice: a scheduler that does not answer in 10 s is taken as unreachable
 T = TypeVar("T")
 R = TypeVar("R")
 
@@ -166,7 +167,7 @@ class DaskEngine(Engine):
         self._cluster = None
         if scheduler:
             try:
-                self._client = Client(scheduler, timeout="20s")
+                self._client = Client(scheduler, timeout=f"{CONNECT_TIMEOUT_S}s")
             except OSError as exc:
                 raise ConfigError(f"--scheduler {scheduler}: cannot reach the Dask scheduler ({exc})") from None
         else:

@@ -23,10 +23,12 @@ from fleetfuel.clean.vehicle import CLEAN_COLUMNS, empty_clean_frame
 from fleetfuel.engine.executors import Engine
 from fleetfuel.engine.tasks import (
     CleanJob,
+    ConsumptionJob,
     PlanJob,
     ReadJob,
     Window,
     clean_partition,
+    partition_consumption,
     plan_vehicle,
     read_file,
 )
@@ -185,3 +187,25 @@ def clean_columns(frame: pd.DataFrame) -> pd.DataFrame:
     """``frame`` restricted to the clean frame's columns (segment ids dropped)."""
     return frame[list(CLEAN_COLUMNS)]
 
+
+
+def fleet_consumption(fleet: PreparedFleet, engine: Engine, microtrips: pd.DataFrame, spec: str, sim: Any) -> pd.Series:
+    """:func:`fleetfuel.cycles.microtrip_consumption` of the whole fleet, partition by partition.
+
+    ``microtrips`` is :attr:`fleetfuel.cycles.CycleSet.microtrips` (its ``measured`` rows are
+    simulated); the result is indexed by ``microtrip_id``, sorted.
+    """
+    flag = "measured" if "measured" in microtrips.columns else "eligible"
+    wanted = set(microtrips.loc[microtrips[flag].to_numpy(dtype=bool), schema.MICROTRIP_ID].astype(str))
+    jobs = []
+    for w in fleet.partitions:
+        ids = read_frames([fleet.work.table("features", w.key)], (schema.MICROTRIP_ID,))
+        mine = () if ids is None else tuple(i for i in ids[schema.MICROTRIP_ID].astype(str) if i in wanted)
+        if mine:
+            jobs.append(ConsumptionJob(w.key, str(fleet.work.root), spec, sim, mine))
+    parts = engine.map(partition_consumption, jobs, [j.key for j in jobs], "fuel check")
+    fleet.work.log_tasks(engine.records)
+    engine.records.clear()
+    found = [p for p in parts if len(p)]
+    out = pd.concat(found) if found else pd.Series(dtype="float64")
+    return out.reindex(sorted(wanted), fill_value=0.0)

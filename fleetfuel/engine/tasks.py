@@ -10,7 +10,9 @@ and returns a few facts. Nothing large travels between the driver and the worker
     (:mod:`fleetfuel.engine.partition`);
 ``clean_partition``
     one window: clean (:func:`fleetfuel.clean.clean_vehicle`), segment into periods, trips and
-    micro-trips, micro-trip features and trip table.
+    micro-trips, micro-trip features and trip table;
+``partition_consumption``
+    one window: a reference spec simulated over its measured micro-trips (the fuel check).
 """
 
 from __future__ import annotations
@@ -27,12 +29,14 @@ import pyarrow.parquet as pq
 
 from fleetfuel import clean, schema, segment
 from fleetfuel.clean.config import CleanConfig
+from fleetfuel.cycles.validate import microtrip_consumption
 from fleetfuel.engine.partition import partition_key, window_cuts, window_of
-from fleetfuel.engine.workdir import WorkFolder, typed, write_frame, write_json
+from fleetfuel.engine.workdir import WorkFolder, read_frames, typed, write_frame, write_json
 from fleetfuel.ingest.base import empty_raw_frame
 from fleetfuel.ingest.config import IngestConfig
 from fleetfuel.ingest.dispatch import read_path
 from fleetfuel.segment.config import SegmentConfig
+from fleetfuel.simulate.config import SimConfig
 
 _TIME_TYPE = pa.timestamp("ns", tz="UTC")
 
@@ -179,8 +183,33 @@ def clean_partition(job: CleanJob) -> dict[str, Any]:
         features, trips = pd.DataFrame(), pd.DataFrame()
     for name, frame in (("samples", samples), ("features", features), ("trips", trips),
                         ("summary", done.files), ("dropped", done.dropped)):
-        write_frame(work.table(name, key), frame)
+        if len(frame) or name == "summary":  # an empty table is a missing file (read_frames skips it)
+            write_frame(work.table(name, key), frame)
     facts = {"key": key, "rows_in": len(rows), "rows_kept": int(len(rows) - len(done.dropped)),
              "samples": len(samples), "microtrips": len(features), "trips": len(trips)}
     write_json(work.done(key), facts)
     return facts
+
+
+@dataclass(frozen=True, slots=True)
+class ConsumptionJob:
+    """Simulate spec ``spec`` over the micro-trips ``microtrips`` (ids, all measured) of partition ``key``."""
+
+    key: str
+    work: str
+    spec: str
+    sim: SimConfig
+    microtrips: tuple[str, ...]
+
+
+def partition_consumption(job: ConsumptionJob) -> pd.Series:
+    """Consumption of each listed micro-trip of one partition, simulated trip by trip over its logs
+    (:func:`fleetfuel.cycles.microtrip_consumption`; index ``microtrip_id``, the model's unit)."""
+    from fleetfuel.simulate.reference import consumption_model
+
+    samples = read_frames([WorkFolder(Path(job.work)).table("samples", job.key)])
+    ids = pd.DataFrame({schema.MICROTRIP_ID: list(job.microtrips), "measured": True})
+    if samples is None or not job.microtrips:
+        return pd.Series(dtype=np.float64)
+    _, _, model = consumption_model(job.spec, job.sim)
+    return microtrip_consumption(samples, ids, model)

@@ -90,8 +90,9 @@ def typed(frame: pd.DataFrame) -> pd.DataFrame:
 
 
 def read_frames(paths: Iterable[Path], columns: Sequence[str] | None = None) -> pd.DataFrame | None:
-    """The Parquet files ``paths`` read and concatenated in the given order (None when there is none)."""
-    parts = [pq.read_table(p, columns=list(columns) if columns else None) for p in paths]
+    """The Parquet files ``paths`` (those that exist) read and concatenated in the given order
+    (None when there is no row)."""
+    parts = [pq.read_table(p, columns=list(columns) if columns else None) for p in paths if p.is_file()]
     parts = [t for t in parts if t.num_rows]
     if not parts:
         return None

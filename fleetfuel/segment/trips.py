@@ -11,6 +11,7 @@ import numpy as np
 import pandas as pd
 
 from fleetfuel import schema
+from fleetfuel.errors import InternalError
 from fleetfuel.segment._frame import float_column, group_ends, group_starts, ordered, seconds
 from fleetfuel.segment.config import SegmentConfig
 from fleetfuel.segment.kinematics import row_kinematics
@@ -150,14 +151,18 @@ def trip_table(samples: pd.DataFrame, cfg: SegmentConfig | None = None) -> pd.Da
     kin = row_kinematics(t, speed, group_starts(codes), group_ends(codes), cfg)
     n = len(trip_ids)
     v = np.nan_to_num(speed, nan=0.0)
-    grouped = rows.groupby(codes, sort=True)
+    if codes.size and not bool((np.diff(codes) >= 0).all()):  # rows come sorted: each trip is one block
+        raise InternalError("trip_table: the rows of a trip are not contiguous after sorting")
+    first = np.flatnonzero(np.r_[True, codes[1:] != codes[:-1]]) if codes.size else np.zeros(0, dtype=np.int64)
+    last = np.r_[first[1:] - 1, codes.size - 1] if codes.size else first
+    times = rows[schema.TIME_UTC]
     table = pd.DataFrame(
         {
-            schema.VEHICLE_ID: grouped[schema.VEHICLE_ID].first().to_numpy(),
-            schema.PERIOD_ID: grouped[schema.PERIOD_ID].first().to_numpy(),
+            schema.VEHICLE_ID: rows[schema.VEHICLE_ID].iloc[first].to_numpy(),
+            schema.PERIOD_ID: rows[schema.PERIOD_ID].iloc[first].to_numpy(),
             schema.TRIP_ID: pd.array(np.asarray(trip_ids, dtype=object), dtype="string"),
-            "start_utc": grouped[schema.TIME_UTC].min().to_numpy(),
-            "end_utc": grouped[schema.TIME_UTC].max().to_numpy(),
+            "start_utc": times.iloc[first].to_numpy(),  # rows are in time order within a trip
+            "end_utc": times.iloc[last].to_numpy(),
             "duration_s": np.bincount(codes, weights=kin.weight_s, minlength=n),
             "distance_m": np.bincount(codes, weights=kin.weight_s * v, minlength=n),
             "samples": np.bincount(codes, minlength=n).astype(np.int64),
@@ -168,14 +173,15 @@ def trip_table(samples: pd.DataFrame, cfg: SegmentConfig | None = None) -> pd.Da
     lat, lon = float_column(rows, schema.LAT_DEG), float_column(rows, schema.LON_DEG)
     for col in ("start_lat_deg", "start_lon_deg", "end_lat_deg", "end_lon_deg"):
         table[col] = np.nan
-    if lat is not None and lon is not None:
+    if lat is not None and lon is not None and codes.size:
+        index = np.arange(codes.size)
         fix = np.isfinite(lat) & np.isfinite(lon)
-        fixes = pd.DataFrame({"code": codes[fix], "lat": lat[fix], "lon": lon[fix]}).groupby(
-            "code", sort=True
-        )
-        first, last = fixes.first(), fixes.last()
-        table.loc[first.index, ["start_lat_deg", "start_lon_deg"]] = first[["lat", "lon"]].to_numpy()
-        table.loc[last.index, ["end_lat_deg", "end_lon_deg"]] = last[["lat", "lon"]].to_numpy()
+        next_fix = np.minimum.accumulate(np.where(fix, index, codes.size)[::-1])[::-1][first]
+        prev_fix = np.maximum.accumulate(np.where(fix, index, -1))[last]
+        has = next_fix <= last  # the trip has a fix
+        for col, src, at in (("start_lat_deg", lat, next_fix), ("start_lon_deg", lon, next_fix),
+                             ("end_lat_deg", lat, prev_fix), ("end_lon_deg", lon, prev_fix)):
+            table[col] = np.where(has, src[np.clip(at, 0, codes.size - 1)], np.nan)
     table[schema.ROUTE] = table[schema.TRIP_ID].map(_route_mode(rows)).astype("string")
     table = table[list(TRIP_TABLE_COLUMNS)]
     return table.sort_values([schema.VEHICLE_ID, "start_utc"], kind="stable").reset_index(drop=True)

@@ -13,7 +13,6 @@ import subprocess
 import sys
 from pathlib import Path
 
-import pandas as pd
 import pytest
 
 from fleetfuel import synth
@@ -30,7 +29,6 @@ def _fleet(folder: Path, vehicles: int, days: int) -> int:
 
 CHILD = """
 import json, resource, sys
-import pandas as pd
 from fleetfuel.config import RunConfig
 from fleetfuel.engine.executors import ProcessEngine
 from fleetfuel.engine.stream import prepare_fleet
