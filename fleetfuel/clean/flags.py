@@ -108,8 +108,8 @@ def longest_run(mask: npt.ArrayLike) -> int:
     m = np.asarray(mask, dtype=bool)
     if not m.any():
         return 0
-    run_id = np.cumsum(~m)
-    return int(pd.Series(run_id[m]).value_counts().max())
+    edges = np.diff(np.r_[0, m.view(np.int8), 0])
+    return int((np.flatnonzero(edges < 0) - np.flatnonzero(edges > 0)).max())
 
 
 def climbing_flight(
@@ -126,6 +126,10 @@ def climbing_flight(
     half = max(1, math.ceil(cfg.aircraft_rate_window_s / (2 * step_s)))
     if z.size < 2 * half + 1 or not np.isfinite(z).any():
         return False
+    with np.errstate(invalid="ignore"):
+        flight_speed = speed >= cfg.aircraft_min_speed_m_s
+    if longest_run(flight_speed) * step_s < cfg.aircraft_min_duration_s:
+        return False  # the climb must hold at flight speed throughout: no run is long enough
     filled = pd.Series(z).interpolate(limit_area="inside").to_numpy()
     smooth = ndimage.median_filter(np.nan_to_num(filled, nan=0.0), size=2 * half + 1, mode="nearest")
     smooth[~np.isfinite(filled)] = np.nan
@@ -134,7 +138,7 @@ def climbing_flight(
     same = np.zeros(z.size, dtype=bool)
     same[half:-half] = seg[2 * half :] == seg[: -2 * half]
     with np.errstate(invalid="ignore"):
-        climbing = same & (rate >= cfg.aircraft_climb_rate_m_s) & (speed >= cfg.aircraft_min_speed_m_s)
+        climbing = same & (rate >= cfg.aircraft_climb_rate_m_s) & flight_speed
     return longest_run(climbing) * step_s >= cfg.aircraft_min_duration_s
 
 

@@ -64,6 +64,50 @@ def value_columns(samples: pd.DataFrame) -> list[str]:
     return [c for c in samples.columns if c not in IDENTITY_COLUMNS]
 
 
+def duplicate_masks(
+    samples: pd.DataFrame, rows: npt.NDArray[np.int64] | None = None, times: npt.NDArray[np.int64] | None = None
+) -> tuple[BoolArray, BoolArray]:
+    """Rows repeating an earlier instant: (exact repeat of an earlier row, same time other values).
+
+    Parameters
+    ----------
+    samples : DataFrame
+        One vehicle's samples sorted with :func:`sort_samples`.
+    rows : ndarray of int64, optional
+        Only these rows (positions, ascending) take part (default: all).
+    times : ndarray of int64, optional
+        :func:`time_ns` of those rows when the caller has it. [ns]
+
+    Returns
+    -------
+    (exact, same_time_other) : tuple of ndarray of bool
+        Over the rows taking part: ``duplicate_row`` and ``duplicate_time`` rows (the first row
+        of each instant is in neither).
+    """
+    rows = np.arange(len(samples)) if rows is None else np.asarray(rows, dtype=np.int64)
+    n = rows.size
+    if times is None:
+        times = time_ns(samples)[rows]
+    t = np.asarray(times, dtype=np.int64)
+    if n == 0:
+        return np.zeros(0, dtype=bool), np.zeros(0, dtype=bool)
+    if n < 2 or bool((t[1:] >= t[:-1]).all()):  # sorted: rows of one instant are neighbours
+        same_prev = np.r_[False, t[1:] == t[:-1]]
+        same_time = same_prev
+        shared = same_prev | np.r_[same_prev[1:], False]
+    else:
+        times_s = pd.Series(t)
+        same_time = times_s.duplicated(keep="first").to_numpy()
+        shared = times_s.duplicated(keep=False).to_numpy()
+    exact = np.zeros(n, dtype=bool)
+    if shared.any():  # only rows sharing an instant can repeat a row
+        keyed = samples.iloc[rows[shared]][value_columns(samples)].reset_index(drop=True)
+        keyed[schema.TIME_UTC] = t[shared]
+        # pandas' duplicated() treats NaN == NaN, which is what an exact repeat means here.
+        exact[shared] = keyed.duplicated(keep="first").to_numpy()
+    return exact, same_time & ~exact
+
+
 def duplicate_reasons(samples: pd.DataFrame) -> pd.Series:
     """Drop reason of each row that repeats an earlier instant, ``<NA>`` for rows to keep.
 
@@ -81,17 +125,9 @@ def duplicate_reasons(samples: pd.DataFrame) -> pd.Series:
     reason = pd.Series(pd.NA, index=samples.index, dtype="string")
     if samples.empty:
         return reason
-    times = pd.Series(time_ns(samples))
-    same_time = times.duplicated(keep="first").to_numpy()
-    exact = np.zeros(len(samples), dtype=bool)
-    shared = times.duplicated(keep=False).to_numpy()  # only rows sharing an instant can repeat a row
-    if shared.any():
-        keyed = samples.loc[shared, value_columns(samples)].copy()
-        keyed[schema.TIME_UTC] = times.to_numpy()[shared]
-        # pandas' duplicated() treats NaN == NaN, which is what an exact repeat means here.
-        exact[shared] = keyed.duplicated(keep="first").to_numpy()
+    exact, other = duplicate_masks(samples)
     reason[exact] = schema.DROP_DUPLICATE_ROW
-    reason[same_time & ~exact] = schema.DROP_DUPLICATE_TIME
+    reason[other] = schema.DROP_DUPLICATE_TIME
     return reason
 
 

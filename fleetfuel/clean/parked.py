@@ -26,11 +26,12 @@ Kaplan, E. D. and Hegarty, C. J. (2017). Understanding GPS/GNSS: Principles and 
 
 from __future__ import annotations
 
+import math
 from typing import Final
 
 import numpy as np
 import numpy.typing as npt
-import pandas as pd
+from numba import njit
 
 from fleetfuel.clean.config import CleanConfig
 from fleetfuel.clean.geodesy import geodesic_distance_m
@@ -42,10 +43,77 @@ SPREAD_QUANTILE: Final = 0.95
 """A drift run's fixes must stay near its median fix at this quantile (one glitch may not count)."""
 
 
+IntArray = npt.NDArray[np.int64]
+
+
 def _runs(mask: BoolArray, segment: npt.NDArray[np.int64]) -> npt.NDArray[np.int64]:
     """Run number (1, 2, ...) of each True sample, runs never crossing a break; 0 elsewhere."""
     prev = np.r_[False, mask[:-1] & (segment[1:] == segment[:-1])]
     return np.where(mask, np.cumsum(mask & ~prev), 0)
+
+
+# Per-run statistics, compiled: one pass over each run instead of a grouped frame. They follow
+# the grouped-frame conventions exactly: NaN skipped, first/last/median per coordinate on its own,
+# the median of an even count the mean of the middle two, quantiles by linear interpolation
+# between order statistics, sums compensated (Kahan 1965).
+
+
+@njit(cache=True)
+def _run_ends(lat: FloatArray, lon: FloatArray, bounds: IntArray) -> FloatArray:  # pragma: no cover - compiled
+    """Per run ``bounds[r]:bounds[r + 1]``: first and last finite latitude and longitude, their medians."""
+    out = np.full((6, bounds.size - 1), np.nan)
+    for r in range(bounds.size - 1):
+        for c, values in enumerate((lat, lon)):
+            part = values[bounds[r] : bounds[r + 1]]
+            finite = np.sort(part[np.isfinite(part)])
+            n = finite.size
+            if n == 0:
+                continue
+            for j in range(part.size):
+                if np.isfinite(part[j]):
+                    out[c, r] = part[j]
+                    break
+            for j in range(part.size - 1, -1, -1):
+                if np.isfinite(part[j]):
+                    out[2 + c, r] = part[j]
+                    break
+            out[4 + c, r] = finite[n // 2] if n % 2 else (finite[n // 2 - 1] + finite[n // 2]) / 2
+    return out
+
+
+@njit(cache=True)
+def _run_quantiles(values: FloatArray, bounds: IntArray, q: float) -> FloatArray:  # pragma: no cover - compiled
+    """Per run: the ``q`` quantile of the finite values (linear between order statistics), NaN if none."""
+    out = np.full(bounds.size - 1, np.nan)
+    for r in range(bounds.size - 1):
+        part = values[bounds[r] : bounds[r + 1]]
+        finite = np.sort(part[np.isfinite(part)])
+        n = finite.size
+        if n == 0:
+            continue
+        pos = q * (n - 1)
+        k = int(math.floor(pos))
+        frac = pos - k
+        out[r] = finite[k] if k + 1 >= n else finite[k] + frac * (finite[k + 1] - finite[k])
+    return out
+
+
+@njit(cache=True)
+def _run_sums(values: FloatArray, bounds: IntArray) -> FloatArray:  # pragma: no cover - compiled
+    """Per run: compensated sum of the finite values (Kahan 1965)."""
+    out = np.zeros(bounds.size - 1)
+    for r in range(bounds.size - 1):
+        total = 0.0
+        carry = 0.0
+        for j in range(bounds[r], bounds[r + 1]):
+            v = values[j]
+            if np.isfinite(v):
+                y = v - carry
+                t = total + y
+                carry = t - total - y
+                total = t
+        out[r] = total
+    return out
 
 
 def window_mean(values: npt.ArrayLike, segment: npt.ArrayLike, half: int) -> FloatArray:
@@ -98,27 +166,26 @@ def drift_runs(
     run = _runs(slow, seg)
     if not run.any():
         return np.zeros(n, dtype=bool)
-    frame = pd.DataFrame(
-        {"run": run, "lat": np.asarray(lat_deg, dtype=np.float64), "lon": np.asarray(lon_deg, dtype=np.float64),
-         "claimed": speed * step_s}
-    )[run > 0]
-    groups = frame.groupby("run", sort=True)
-    first = groups[["lat", "lon"]].first()
-    last = groups[["lat", "lon"]].last()
-    centre = groups[["lat", "lon"]].transform("median")
-    frame = frame.assign(off=geodesic_distance_m(frame["lat"], frame["lon"], centre["lat"], centre["lon"]))
-    spread = frame.groupby("run", sort=True)["off"].quantile(SPREAD_QUANTILE).to_numpy()
-    claimed = groups["claimed"].sum()
-    duration = groups.size() * step_s
-    made_good = geodesic_distance_m(first["lat"], first["lon"], last["lat"], last["lon"])
+    members = np.flatnonzero(run > 0)  # runs are consecutive blocks of these, numbered 1, 2, ...
+    lat = np.asarray(lat_deg, dtype=np.float64)[members]
+    lon = np.asarray(lon_deg, dtype=np.float64)[members]
+    label = run[members]
+    bounds = np.flatnonzero(np.r_[True, label[1:] != label[:-1], True])
+    ends = _run_ends(lat, lon, bounds)  # rows: first lat, first lon, last lat, last lon, median lat, median lon
+    size = np.diff(bounds)
+    centre = np.repeat(np.arange(size.size), size)
+    off = geodesic_distance_m(lat, lon, ends[4][centre], ends[5][centre])
+    spread = _run_quantiles(off, bounds, SPREAD_QUANTILE)
+    claimed = _run_sums(speed[members] * step_s, bounds)
+    made_good = geodesic_distance_m(ends[0], ends[1], ends[2], ends[3])
     with np.errstate(invalid="ignore"):
         parked = (
-            (duration.to_numpy() >= cfg.parked_window_s)
-            & (made_good < cfg.drift_progress_share * claimed.to_numpy())
+            (size * step_s >= cfg.parked_window_s)
+            & (made_good < cfg.drift_progress_share * claimed)
             & (spread <= cfg.drift_radius_m)
         )
     is_parked_run = np.zeros(int(run.max()) + 1, dtype=bool)
-    is_parked_run[duration.index.to_numpy()] = parked
+    is_parked_run[label[bounds[:-1]]] = parked
     return is_parked_run[run] & (run > 0)
 
 
@@ -161,12 +228,30 @@ def hold_positions(
     if not still.any():
         return lat, lon
     run = _runs(still, np.asarray(segment, dtype=np.int64))
-    frame = pd.DataFrame({"run": run[still], "lat": lat[still], "lon": lon[still]})
-    firsts = frame.groupby("run", sort=False)[["lat", "lon"]].transform("first")
-    held_lat = firsts["lat"].to_numpy()
-    held_lon = firsts["lon"].to_numpy()
-    have = np.isfinite(held_lat) & np.isfinite(held_lon)
-    idx = np.flatnonzero(still)
-    lat[idx[have]] = held_lat[have]
-    lon[idx[have]] = held_lon[have]
+    _hold(lat, lon, run)
     return lat, lon
+
+
+@njit(cache=True)
+def _hold(lat: FloatArray, lon: FloatArray, run: IntArray) -> None:  # pragma: no cover - compiled
+    """In place: every sample of a run (``run > 0``, consecutive) takes the run's first finite
+    latitude and first finite longitude, where the run has both."""
+    n = run.size
+    i = 0
+    while i < n:
+        if run[i] == 0:
+            i += 1
+            continue
+        j = i
+        first_lat = np.nan
+        first_lon = np.nan
+        while j < n and run[j] == run[i]:
+            if first_lat != first_lat and lat[j] == lat[j]:
+                first_lat = lat[j]
+            if first_lon != first_lon and lon[j] == lon[j]:
+                first_lon = lon[j]
+            j += 1
+        if first_lat == first_lat and first_lon == first_lon:
+            lat[i:j] = first_lat
+            lon[i:j] = first_lon
+        i = j

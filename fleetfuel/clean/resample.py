@@ -103,6 +103,127 @@ def _forward_fill_from(bin_pos: IntArray, grid_size: int) -> IntArray:
     return np.maximum.accumulate(marker)
 
 
+@dataclass(frozen=True, slots=True, kw_only=True)
+class GridPlan:
+    """Where one vehicle's kept rows go on the grid: index arrays, built once, applied per column.
+
+    Attributes
+    ----------
+    grid_k : ndarray of int64
+        Grid instant of each sample (time = ``grid_k * step``).
+    segment : ndarray of int64
+        Stretch number of each sample (0, 1, ...; increments at every ``gap_break``).
+    bin_pos : ndarray of int64
+        Grid position of each occupied instant (bin).
+    first_row : ndarray of int64
+        Input row of each bin's first row.
+    bin_of_row : ndarray of int64
+        Bin of each input row.
+    owner_row : ndarray of int64
+        Input row whose text columns each sample carries (its bin's first row; for an
+        interpolated sample, that of the bin before it).
+    gap_break, interpolated : ndarray of bool
+        The flags of the clean frame.
+    step_ns : int
+        Grid step. [ns]
+    max_gap_steps : float
+        Longest hole filled by interpolation. [steps]
+    """
+
+    grid_k: IntArray
+    segment: IntArray
+    bin_pos: IntArray
+    first_row: IntArray
+    bin_of_row: IntArray
+    owner_row: IntArray
+    gap_break: BoolArray
+    interpolated: BoolArray
+    step_ns: int
+    max_gap_steps: float
+
+    @property
+    def size(self) -> int:
+        """Samples on the grid."""
+        return int(self.grid_k.size)
+
+    @property
+    def merged(self) -> bool:
+        """Some instant holds more than one input row."""
+        return bool(self.first_row.size != self.bin_of_row.size)
+
+    def floats(self, values: npt.ArrayLike) -> FloatArray:
+        """A numeric column on the grid: mean per instant, short holes interpolated in a stretch."""
+        vals = np.asarray(values, dtype=np.float64)
+        fin = np.isfinite(vals)
+        grid = np.full(self.size, np.nan)
+        if not fin.any():  # an absent signal stays absent: nothing to average or interpolate
+            return grid
+        if not self.merged:  # one row per instant: its mean is the value itself
+            grid[self.bin_pos] = np.where(fin, vals, np.nan)
+        else:
+            cnt = np.bincount(self.bin_of_row[fin], minlength=self.first_row.size)
+            tot = np.bincount(self.bin_of_row[fin], weights=vals[fin], minlength=self.first_row.size)
+            with np.errstate(invalid="ignore", divide="ignore"):
+                grid[self.bin_pos] = np.where(cnt > 0, tot / np.maximum(cnt, 1), np.nan)
+        return fill_within_segments(grid, self.segment, self.grid_k, self.max_gap_steps)
+
+    def source_rows(self, rows: npt.ArrayLike) -> IntArray:
+        """``source_row`` on the grid: the first row of each instant, -1 where interpolated."""
+        out = np.full(self.size, -1, dtype=np.int64)
+        out[self.bin_pos] = np.asarray(rows, dtype=np.int64)[self.first_row]
+        return out
+
+    def times_ns(self) -> IntArray:
+        """Grid times. [ns since 1970-01-01 UTC]"""
+        return self.grid_k * self.step_ns
+
+
+def grid_plan(
+    t_ns: npt.NDArray[np.int64], base: TimeBase, breaks_before: BoolArray | None = None
+) -> GridPlan:
+    """The grid of sorted, distinct-time rows ``t_ns`` (see module notes); at least one row.
+
+    Parameters
+    ----------
+    t_ns : ndarray of int64
+        Times of the kept rows, sorted. [ns]
+    base : TimeBase
+        From :func:`time_base`.
+    breaks_before : ndarray of bool, optional
+        Extra breaks (e.g. a lasting position jump) before these rows.
+    """
+    h = int(round(base.step_s * NS_PER_S))
+    t = np.asarray(t_ns, dtype=np.int64)
+    k = (t + h // 2) // h
+    new_k = np.r_[True, np.diff(k) != 0]
+    brk = np.r_[False, np.diff(t) > base.gap_s * NS_PER_S]
+    if breaks_before is not None:
+        brk |= np.asarray(breaks_before, dtype=bool)
+    brk &= new_k  # a break inside one grid instant cannot be represented: merge instead
+    brk[0] = False
+    first_row = np.flatnonzero(new_k)
+    bin_of_row = np.cumsum(new_k) - 1
+    bin_k, bin_seg = k[first_row], np.cumsum(brk)[first_row]
+    seg_first_bin = np.flatnonzero(np.r_[True, np.diff(bin_seg) != 0])
+    seg_last_bin = np.r_[seg_first_bin[1:] - 1, first_row.size - 1]
+    kmin, kmax = bin_k[seg_first_bin], bin_k[seg_last_bin]
+    seg_len = kmax - kmin + 1
+    offset = np.r_[0, np.cumsum(seg_len)[:-1]]
+    grid_size = int(seg_len.sum())
+    grid_seg = np.repeat(np.arange(seg_len.size), seg_len)
+    grid_k = kmin[grid_seg] + np.arange(grid_size) - offset[grid_seg]
+    bin_pos = offset[bin_seg] + bin_k - kmin[bin_seg]
+    interpolated = np.ones(grid_size, dtype=bool)
+    interpolated[bin_pos] = False
+    gap_break = np.zeros(grid_size, dtype=bool)
+    gap_break[offset[1:]] = True
+    return GridPlan(
+        grid_k=grid_k, segment=grid_seg, bin_pos=bin_pos, first_row=first_row, bin_of_row=bin_of_row,
+        owner_row=first_row[_forward_fill_from(bin_pos, grid_size)], gap_break=gap_break,
+        interpolated=interpolated, step_ns=h, max_gap_steps=base.gap_s / base.step_s,
+    )
+
+
 def resample(
     samples: pd.DataFrame, base: TimeBase, breaks_before: BoolArray | None = None
 ) -> pd.DataFrame:
@@ -122,68 +243,30 @@ def resample(
     DataFrame
         The input's columns on the grid, plus ``is_interpolated`` and ``gap_break``.
     """
-    n = len(samples)
     columns = list(samples.columns)
-    if n == 0:
+    if len(samples) == 0:
         out = samples.copy()
         out[schema.IS_INTERPOLATED] = pd.Series([], dtype=bool)
         out[schema.GAP_BREAK] = pd.Series([], dtype=bool)
         return out
-    h = int(round(base.step_s * NS_PER_S))
-    t = time_ns(samples)
-    k = (t + h // 2) // h
-    new_k = np.r_[True, np.diff(k) != 0]
-    brk = np.r_[False, np.diff(t) > base.gap_s * NS_PER_S]
-    if breaks_before is not None:
-        brk |= np.asarray(breaks_before, dtype=bool)
-    brk &= new_k  # a break inside one grid instant cannot be represented: merge instead
-    brk[0] = False
-    seg = np.cumsum(brk)
-    first_row = np.flatnonzero(new_k)
-    bin_of_row = np.cumsum(new_k) - 1
-    bin_k, bin_seg = k[first_row], seg[first_row]
-    seg_first_bin = np.flatnonzero(np.r_[True, np.diff(bin_seg) != 0])
-    seg_last_bin = np.r_[seg_first_bin[1:] - 1, first_row.size - 1]
-    kmin, kmax = bin_k[seg_first_bin], bin_k[seg_last_bin]
-    seg_len = kmax - kmin + 1
-    offset = np.r_[0, np.cumsum(seg_len)[:-1]]
-    grid_size = int(seg_len.sum())
-    grid_seg = np.repeat(np.arange(seg_len.size), seg_len)
-    grid_k = kmin[grid_seg] + np.arange(grid_size) - offset[grid_seg]
-    bin_pos = offset[bin_seg] + bin_k - kmin[bin_seg]
-    owner = _forward_fill_from(bin_pos, grid_size)
-    max_gap_steps = base.gap_s / base.step_s
-
+    plan = grid_plan(time_ns(samples), base, breaks_before)
     data: dict[str, object] = {}
     for name in columns:
         col = samples[name]
         if name == schema.TIME_UTC:
-            data[name] = pd.to_datetime(grid_k * h, unit="ns", utc=True)
+            data[name] = pd.to_datetime(plan.times_ns(), unit="ns", utc=True)
         elif name == schema.SOURCE_ROW:
-            rows = np.full(grid_size, -1, dtype=np.int64)
-            rows[bin_pos] = col.to_numpy(dtype=np.int64)[first_row]
-            data[name] = rows
+            data[name] = plan.source_rows(col.to_numpy(dtype=np.int64))
         elif pd.api.types.is_float_dtype(col.dtype):
-            vals = col.to_numpy(dtype=np.float64)
-            fin = np.isfinite(vals)
-            cnt = np.bincount(bin_of_row[fin], minlength=first_row.size)
-            tot = np.bincount(bin_of_row[fin], weights=vals[fin], minlength=first_row.size)
-            grid = np.full(grid_size, np.nan)
-            with np.errstate(invalid="ignore", divide="ignore"):
-                grid[bin_pos] = np.where(cnt > 0, tot / np.maximum(cnt, 1), np.nan)
-            data[name] = fill_within_segments(grid, grid_seg, grid_k, max_gap_steps)
+            data[name] = plan.floats(col.to_numpy(dtype=np.float64))
         else:  # strings and anything else: the first row of the bin, carried into interpolated instants
-            data[name] = col.array.take(first_row[owner])  # keeps the column's own dtype
+            data[name] = col.array.take(plan.owner_row)  # keeps the column's own dtype
     out = pd.DataFrame(data)
     for name in columns:
         if name != schema.TIME_UTC and out[name].dtype != samples[name].dtype:
             out[name] = out[name].astype(samples[name].dtype)
-    interpolated = np.ones(grid_size, dtype=bool)
-    interpolated[bin_pos] = False
-    gap_break = np.zeros(grid_size, dtype=bool)
-    gap_break[offset[1:]] = True
-    out[schema.IS_INTERPOLATED] = interpolated
-    out[schema.GAP_BREAK] = gap_break
+    out[schema.IS_INTERPOLATED] = plan.interpolated
+    out[schema.GAP_BREAK] = plan.gap_break
     return out
 
 

@@ -8,6 +8,10 @@ the line search are a sequential recurrence over the profile, so the whole itera
 with numba (one call per stretch instead of tens of scipy calls and dozens of numpy temporaries
 per iteration). The arithmetic is the same as the numpy/scipy formulation step for step; results
 agree to rounding (the banded Cholesky factorisation is written out, not LAPACK's ``pbtrf``).
+Loops that read the same arrays are fused (the Newton system's assembly, factorisation and forward
+substitution in one pass; a line-search trial's update, residual and feasibility in one pass;
+``D^T z`` of the accepted trial kept for the next iteration), each value computed by the same
+operations in the same order as the separate loops, so the iterates are the same to the bit.
 
 References
 ----------
@@ -104,22 +108,6 @@ def _d(x: FloatArray, out: FloatArray) -> None:  # pragma: no cover
 
 
 @njit(cache=True)
-def _residual(res_dual: FloatArray, mu1: FloatArray, f1: FloatArray, mu2: FloatArray, f2: FloatArray,
-              inv_t: float) -> float:  # pragma: no cover
-    """Norm of the primal-dual residual (dual residual and centrality of both bounds)."""
-    a = 0.0
-    b = 0.0
-    c = 0.0
-    for k in range(res_dual.size):
-        a += res_dual[k] * res_dual[k]
-        r1 = mu1[k] * f1[k] + inv_t
-        r2 = mu2[k] * f2[k] + inv_t
-        b += r1 * r1
-        c += r2 * r2
-    return math.sqrt(a + b + c)
-
-
-@njit(cache=True)
 def _objectives(dy: FloatArray, z: FloatArray, mu1: FloatArray, mu2: FloatArray, w: FloatArray, sol: FloatArray,
                 dtz: FloatArray, ddtz: FloatArray, lam: float) -> tuple[float, float]:  # pragma: no cover
     """Primal (the smaller of its two bounds) and dual objective at the current point."""
@@ -140,20 +128,92 @@ def _objectives(dy: FloatArray, z: FloatArray, mu1: FloatArray, mu2: FloatArray,
 
 
 @njit(cache=True)
-def _multiplier_step(mu1: FloatArray, mu2: FloatArray, f1: FloatArray, f2: FloatArray, dz: FloatArray, inv_t: float,
-                     dmu1: FloatArray, dmu2: FloatArray) -> float:  # pragma: no cover
-    """Newton directions of the multipliers (``dmu1``, ``dmu2`` written) and the longest step
-    (backed off) that keeps them positive, at most 1."""
-    step = 1.0
+def _trial(z: FloatArray, mu1: FloatArray, mu2: FloatArray, dz: FloatArray, dmu1: FloatArray, dmu2: FloatArray,
+           dy: FloatArray, lam: float, inv_t: float, step: float, work: tuple) -> float:  # pragma: no cover
+    """The trial point ``z + step dz`` (and multipliers) into ``work`` (nz, nmu1, nmu2, nf1, nf2,
+    scratch, D^T nz, D D^T nz) and its residual norm, in one pass; ``inf`` if it leaves the box
+    ``|nz| < lam``. The same operations in the same order as the update loop, :func:`_dt`,
+    :func:`_d` and the residual norm one after the other, so the same bits."""
+    nz, nmu1, nmu2, nf1, nf2, nres, ndtz, nddtz = work
+    m = z.size
+    worst = -np.inf
+    a = 0.0
+    b = 0.0
+    c = 0.0
+    for j in range(m + 2):
+        if j < m:
+            nz[j] = z[j] + step * dz[j]
+            nmu1[j] = mu1[j] + step * dmu1[j]
+            nmu2[j] = mu2[j] + step * dmu2[j]
+            nf1[j] = nz[j] - lam
+            nf2[j] = -nz[j] - lam
+            worst = max(worst, nf1[j], nf2[j])
+        v = 0.0
+        if j >= 2:
+            v += nz[j - 2]
+        if 1 <= j <= m:
+            v -= 2.0 * nz[j - 1]
+        if j < m:
+            v += nz[j]
+        ndtz[j] = v
+        if j >= 2:
+            k = j - 2
+            d = ndtz[k] - 2.0 * ndtz[k + 1] + ndtz[k + 2]
+            nddtz[k] = d
+            r = d - dy[k] + nmu1[k] - nmu2[k]
+            nres[k] = r
+            a += r * r
+            r1 = nmu1[k] * nf1[k] + inv_t
+            r2 = nmu2[k] * nf2[k] + inv_t
+            b += r1 * r1
+            c += r2 * r2
+    if not worst < 0:
+        return np.inf
+    return math.sqrt(a + b + c)
+
+
+@njit(cache=True)
+def _line_search(z: FloatArray, mu1: FloatArray, mu2: FloatArray, dz: FloatArray, dmu1: FloatArray,
+                 dmu2: FloatArray, dy: FloatArray, lam: float, inv_t: float, residual: float, step: float,
+                 work: tuple) -> tuple[float, bool]:  # pragma: no cover
+    """Backtracking on the residual norm; the trial point is left in ``work`` (see :func:`_trial`).
+    Returns the step after the search (halved once more when no trial point was accepted, as in
+    the reference implementation) and whether the last two work arrays hold ``D^T nz`` and
+    ``D D^T nz`` of the point left (they do unless its last trial left the box)."""
+    known = False
+    for _ls in range(MAX_LINE_SEARCH):
+        norm = _trial(z, mu1, mu2, dz, dmu1, dmu2, dy, lam, inv_t, step, work)
+        known = norm < np.inf
+        if known and norm <= (1 - SUFFICIENT_DECREASE * step) * residual:
+            return step, known
+        step *= BETA
+    return step, known
+
+
+@njit(cache=True)
+def _back_substitute(u0: FloatArray, u1: FloatArray, u2: FloatArray, dz: FloatArray, mu1: FloatArray,
+                     mu2: FloatArray, f1: FloatArray, f2: FloatArray, inv_t: float, dmu1: FloatArray,
+                     dmu2: FloatArray) -> float:  # pragma: no cover
+    """Backward substitution ``U dz = y`` (as :func:`_solve`), with the multipliers' Newton
+    directions (``dmu1``, ``dmu2`` written) and the longest step (backed off) that keeps them
+    positive, at most 1, in the same pass (a minimum does not depend on the order)."""
+    m = dz.size
     lim1 = np.inf
     lim2 = np.inf
-    for k in range(mu1.size):
-        dmu1[k] = -(mu1[k] + (inv_t + dz[k] * mu1[k]) / f1[k])
-        dmu2[k] = -(mu2[k] + (inv_t - dz[k] * mu2[k]) / f2[k])
-        if dmu1[k] < 0:
-            lim1 = min(lim1, -mu1[k] / dmu1[k])
-        if dmu2[k] < 0:
-            lim2 = min(lim2, -mu2[k] / dmu2[k])
+    for j in range(m - 1, -1, -1):
+        s = dz[j]
+        if j + 1 < m:
+            s -= u1[j + 1] * dz[j + 1]
+        if j + 2 < m:
+            s -= u2[j + 2] * dz[j + 2]
+        dz[j] = s / u0[j]
+        dmu1[j] = -(mu1[j] + (inv_t + dz[j] * mu1[j]) / f1[j])
+        dmu2[j] = -(mu2[j] + (inv_t - dz[j] * mu2[j]) / f2[j])
+        if dmu1[j] < 0:
+            lim1 = min(lim1, -mu1[j] / dmu1[j])
+        if dmu2[j] < 0:
+            lim2 = min(lim2, -mu2[j] / dmu2[j])
+    step = 1.0
     if lim1 < np.inf:
         step = min(step, STEP_BACKOFF * lim1)
     if lim2 < np.inf:
@@ -162,31 +222,46 @@ def _multiplier_step(mu1: FloatArray, mu2: FloatArray, f1: FloatArray, f2: Float
 
 
 @njit(cache=True)
-def _line_search(z: FloatArray, mu1: FloatArray, mu2: FloatArray, dz: FloatArray, dmu1: FloatArray,
-                 dmu2: FloatArray, dy: FloatArray, lam: float, inv_t: float, residual: float, step: float,
-                 work: tuple) -> float:  # pragma: no cover
-    """Backtracking on the residual norm; the trial point is left in ``work`` (nz, nmu1, nmu2,
-    nf1, nf2, scratch, scratch). Returns the step after the search (halved once more when no
-    trial point was accepted, as in the reference implementation)."""
-    nz, nmu1, nmu2, nf1, nf2, nres, ndtz = work
-    for _ls in range(MAX_LINE_SEARCH):
-        worst = -np.inf
-        for k in range(z.size):
-            nz[k] = z[k] + step * dz[k]
-            nmu1[k] = mu1[k] + step * dmu1[k]
-            nmu2[k] = mu2[k] + step * dmu2[k]
-            nf1[k] = nz[k] - lam
-            nf2[k] = -nz[k] - lam
-            worst = max(worst, nf1[k], nf2[k])
-        if worst < 0:
-            _dt(nz, ndtz)
-            _d(ndtz, nres)
-            for k in range(z.size):
-                nres[k] = nres[k] - dy[k] + nmu1[k] - nmu2[k]
-            if _residual(nres, nmu1, nf1, nmu2, nf2, inv_t) <= (1 - SUFFICIENT_DECREASE * step) * residual:
-                return step
-        step *= BETA
-    return step
+def _newton_direction(mu1: FloatArray, mu2: FloatArray, f1: FloatArray, f2: FloatArray, dy: FloatArray,
+                      ddtz: FloatArray, w: FloatArray, inv_t: float, work: tuple) -> tuple[float, float]:  # pragma: no cover
+    """Newton direction ``dz`` (in ``work``), the residual norm at the current point and the
+    multipliers' step limit, in two passes: the system's diagonal and right-hand side, the residual
+    norm, the banded factorisation (as :func:`_factor`) and the forward substitution (as
+    :func:`_solve`) in one, :func:`_back_substitute` in the other; each value by the same
+    operations in the same order as separate loops would use."""
+    u0, u1, u2, dz, nres, dmu1, dmu2 = work
+    m = dy.size
+    a = 0.0
+    b = 0.0
+    c = 0.0
+    for j in range(m):
+        diag = _DDT_MAIN - (mu1[j] / f1[j] + mu2[j] / f2[j])
+        rhs = -ddtz[j] + dy[j] + inv_t / f1[j] - inv_t / f2[j]
+        r = ddtz[j] - w[j]  # the dual residual
+        nres[j] = r
+        a += r * r
+        r1 = mu1[j] * f1[j] + inv_t
+        r2 = mu2[j] * f2[j] + inv_t
+        b += r1 * r1
+        c += r2 * r2
+        a2 = 0.0
+        a1 = 0.0
+        if j >= 2:
+            a2 = _DDT_SECOND / u0[j - 2]
+        if j >= 1:
+            prev = u1[j - 1] if j >= 2 else 0.0
+            a1 = (_DDT_FIRST - prev * a2) / u0[j - 1]
+        u2[j] = a2
+        u1[j] = a1
+        u0[j] = math.sqrt(diag - a2 * a2 - a1 * a1)
+        s = rhs
+        if j >= 1:
+            s -= u1[j] * dz[j - 1]
+        if j >= 2:
+            s -= u2[j] * dz[j - 2]
+        dz[j] = s / u0[j]
+    step = _back_substitute(u0, u1, u2, dz, mu1, mu2, f1, f2, inv_t, dmu1, dmu2)
+    return math.sqrt(a + b + c), step
 
 
 @njit(cache=True)
@@ -211,8 +286,6 @@ def dual_solution(y: FloatArray, lam: float) -> FloatArray:  # pragma: no cover
     ddtz = np.empty(m)
     w = np.empty(m)
     sol = np.empty(m)
-    diag = np.empty(m)
-    rhs = np.empty(m)
     dz = np.empty(m)
     dmu1 = np.empty(m)
     dmu2 = np.empty(m)
@@ -220,9 +293,12 @@ def dual_solution(y: FloatArray, lam: float) -> FloatArray:  # pragma: no cover
     nz, nmu1, nmu2, nf1, nf2 = np.empty(m), np.empty(m), np.empty(m), np.empty(m), np.empty(m)
     nres = np.empty(m)
     ndtz = np.empty(m + 2)
+    nddtz = np.empty(m)
+    known = False  # do dtz, ddtz hold D^T z, D D^T z of the current z (from the line search)?
     for _ in range(MAX_ITER):
-        _dt(z, dtz)
-        _d(dtz, ddtz)
+        if not known:
+            _dt(z, dtz)
+            _d(dtz, ddtz)
         for k in range(m):
             w[k] = dy[k] - (mu1[k] - mu2[k])
         _solve(c0, c1, c2, w, sol)
@@ -233,19 +309,16 @@ def dual_solution(y: FloatArray, lam: float) -> FloatArray:  # pragma: no cover
         if step >= STEP_KEEP_T:
             t = max(2 * m * MU / gap, T_GROWTH * t)
         inv_t = 1.0 / t
-        for k in range(m):
-            diag[k] = _DDT_MAIN - (mu1[k] / f1[k] + mu2[k] / f2[k])
-            rhs[k] = -ddtz[k] + dy[k] + inv_t / f1[k] - inv_t / f2[k]
-            nres[k] = ddtz[k] - w[k]  # the dual residual
-        _factor(diag, u0, u1, u2)
-        _solve(u0, u1, u2, rhs, dz)
-        residual = _residual(nres, mu1, f1, mu2, f2, inv_t)
-        step = _multiplier_step(mu1, mu2, f1, f2, dz, inv_t, dmu1, dmu2)
-        step = _line_search(z, mu1, mu2, dz, dmu1, dmu2, dy, lam, inv_t, residual, step,
-                            (nz, nmu1, nmu2, nf1, nf2, nres, ndtz))
+        residual, step = _newton_direction(mu1, mu2, f1, f2, dy, ddtz, w, inv_t,
+                                           (u0, u1, u2, dz, nres, dmu1, dmu2))
+        step, known = _line_search(z, mu1, mu2, dz, dmu1, dmu2, dy, lam, inv_t, residual, step,
+                                   (nz, nmu1, nmu2, nf1, nf2, nres, ndtz, nddtz))
         z, nz = nz, z
         mu1, nmu1 = nmu1, mu1
         mu2, nmu2 = nmu2, mu2
         f1, nf1 = nf1, f1
         f2, nf2 = nf2, f2
+        if known:
+            dtz, ndtz = ndtz, dtz
+            ddtz, nddtz = nddtz, ddtz
     return z
