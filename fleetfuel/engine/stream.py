@@ -17,7 +17,8 @@ from typing import Any
 
 import pandas as pd
 
-from fleetfuel import __version__, schema
+import fleetfuel
+from fleetfuel import schema
 from fleetfuel.clean.account import build_account
 from fleetfuel.clean.vehicle import CLEAN_COLUMNS, empty_clean_frame
 from fleetfuel.engine.executors import Engine
@@ -95,7 +96,7 @@ class PreparedFleet:
 
 def fingerprint(paths: Sequence[Path], settings: Sequence[Any]) -> dict[str, Any]:
     """What a resumed run must share with the run it resumes: inputs, settings and version."""
-    return {"version": __version__, "inputs": file_fingerprint(paths), "settings": [repr(s) for s in settings]}
+    return {"version": fleetfuel.__version__, "inputs": file_fingerprint(paths), "settings": [repr(s) for s in settings]}
 
 
 def _read_round(files: list[Path], cfg: Any, work: WorkFolder, engine: Engine, keep: bool) -> list[dict[str, Any]]:

@@ -57,7 +57,8 @@ def test_peak_memory_does_not_grow_with_the_fleet(tmp_path: Path) -> None:
     small = _prepare(tmp_path / "small", tmp_path / "work_small")
     big = _prepare(tmp_path / "big", tmp_path / "work_big")
     driver_growth, worker_growth = big[0] - small[0], big[1] - small[1]
-    # holding the big fleet's samples would add more than big_bytes; allow a half of it: the largest
-    # operating period of ten days is larger than that of one, and the heap does not shrink back
-    assert driver_growth < big_bytes / 2, (driver_growth, big_bytes)
-    assert worker_growth < big_bytes / 2, (worker_growth, big_bytes)
+    # holding the big fleet's clean samples (wider than the raw frame) would add several times
+    # big_bytes; growth below big_bytes allows for the largest of ten days' operating periods being
+    # larger than one day's and for a heap that does not shrink back (measured: 11 MB of 34 MB)
+    assert driver_growth < big_bytes, (driver_growth, big_bytes)
+    assert worker_growth < big_bytes, (worker_growth, big_bytes)
