@@ -98,11 +98,6 @@ class Engine:
     def close(self) -> None:
         """Release workers (nothing to release here)."""
 
-    @property
-    def workers(self) -> int:
-        """Partitions run at the same time."""
-        return 1
-
     def map(self, fn: Callable[[T], R], items: Sequence[T], keys: Sequence[str], stage: str) -> list[R]:
         """``[fn(item) for item in items]``, run where this engine runs tasks, in the items' order.
 
@@ -132,13 +127,8 @@ class ProcessEngine(Engine):
 
     def __init__(self, workers: int) -> None:
         super().__init__()
-        self._workers = workers
         self._pool = ProcessPoolExecutor(max_workers=workers, mp_context=get_context("spawn"),
                                          initializer=_init_process)
-
-    @property
-    def workers(self) -> int:
-        return self._workers
 
     def close(self) -> None:
         self._pool.shutdown(wait=True, cancel_futures=True)
@@ -184,10 +174,6 @@ class DaskEngine(Engine):
     def client(self) -> Any:
         """The ``distributed.Client`` (tests use it to find and stop workers)."""
         return self._client
-
-    @property
-    def workers(self) -> int:
-        return max(1, len(self._client.scheduler_info().get("workers", {})))
 
     def close(self) -> None:
         self._client.close()

@@ -26,10 +26,11 @@ import numpy as np
 import numpy.typing as npt
 import pandas as pd
 
+from fleetfuel.clean.order import NS_PER_S
+
 IntArray = npt.NDArray[np.int64]
 FloatArray = npt.NDArray[np.float64]
 
-NS_PER_S: Final = 1_000_000_000
 UNKNOWN_VEHICLE_KEY: Final = "_no_vehicle"
 _SAFE = re.compile(r"[^A-Za-z0-9_.-]+")
 

@@ -17,6 +17,7 @@ and returns a few facts. Nothing large travels between the driver and the worker
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -37,6 +38,7 @@ from fleetfuel.ingest.config import IngestConfig
 from fleetfuel.ingest.dispatch import read_path
 from fleetfuel.segment.config import SegmentConfig
 from fleetfuel.simulate.config import SimConfig
+from fleetfuel.simulate.reference import consumption_model
 
 _TIME_TYPE = pa.timestamp("ns", tz="UTC")
 
@@ -205,11 +207,14 @@ class ConsumptionJob:
 def partition_consumption(job: ConsumptionJob) -> pd.Series:
     """Consumption of each listed micro-trip of one partition, simulated trip by trip over its logs
     (:func:`fleetfuel.cycles.microtrip_consumption`; index ``microtrip_id``, the model's unit)."""
-    from fleetfuel.simulate.reference import consumption_model
-
     samples = read_frames([WorkFolder(Path(job.work)).table("samples", job.key)])
     ids = pd.DataFrame({schema.MICROTRIP_ID: list(job.microtrips), "measured": True})
     if samples is None or not job.microtrips:
         return pd.Series(dtype=np.float64)
-    _, _, model = consumption_model(job.spec, job.sim)
-    return microtrip_consumption(samples, ids, model)
+    return microtrip_consumption(samples, ids, _model(job.spec, job.sim))
+
+
+@functools.lru_cache(maxsize=4)
+def _model(spec: str, sim: SimConfig) -> Any:
+    """The consumption model of ``spec``, loaded once per worker process (not once per partition)."""
+    return consumption_model(spec, sim)[2]

@@ -21,9 +21,7 @@ no half-written ones; ``--resume`` keeps what a run of the same inputs and setti
 from __future__ import annotations
 
 import json
-import os
 import shutil
-import tempfile
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
 from pathlib import Path
@@ -35,6 +33,7 @@ import pyarrow.parquet as pq
 
 from fleetfuel import schema
 from fleetfuel.errors import OutputError
+from fleetfuel.report.files import write_bytes_atomic, write_text_atomic
 
 PARTITION_TABLES: Final = ("samples", "features", "trips", "summary", "dropped")
 """Tables every finished partition leaves in the work folder."""
@@ -44,35 +43,16 @@ RUN_FILE: Final = "run.json"
 TASK_LOG: Final = "tasks.jsonl"
 
 
-def _atomic(path: Path, write: Any) -> None:
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".part")
-    os.close(fd)
-    try:
-        write(tmp)
-        os.chmod(tmp, 0o666 & ~_umask())
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
-
-
-def _umask() -> int:
-    mask = os.umask(0)
-    os.umask(mask)
-    return mask
-
-
 def write_frame(path: Path, frame: pd.DataFrame) -> None:
     """Write ``frame`` to Parquet at ``path`` atomically (index dropped, row groups for push-down)."""
-    table = pa.Table.from_pandas(frame, preserve_index=False)
-    _atomic(path, lambda tmp: pq.write_table(table, tmp, row_group_size=ROW_GROUP_ROWS))
+    buffer = pa.BufferOutputStream()
+    pq.write_table(pa.Table.from_pandas(frame, preserve_index=False), buffer, row_group_size=ROW_GROUP_ROWS)
+    write_bytes_atomic(path, buffer.getvalue().to_pybytes())
 
 
 def write_json(path: Path, data: Any) -> None:
     """Write ``data`` as JSON at ``path`` atomically."""
-    text = json.dumps(data, indent=1, sort_keys=True, default=str)
-    _atomic(path, lambda tmp: Path(tmp).write_text(text, encoding="utf-8"))
+    write_text_atomic(path, json.dumps(data, indent=1, sort_keys=True, default=str))
 
 
 def read_json(path: Path) -> Any:
