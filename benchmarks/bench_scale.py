@@ -13,7 +13,13 @@ the driver's peak RSS and each worker's peak RSS (from the task log).
 4. Peak RSS per worker for the largest size; the work folder's Parquet dataset size against the
    raw input size.
 
+``--cap-mib CAP`` measures the memory cap instead: a fleet whose generated samples take
+``--cap-factor`` (default 3) times CAP in memory, written week by week so the benchmark itself
+stays small, run through a 2-worker Dask LocalCluster whose workers are limited to CAP; prints
+the driver's and each worker's peak RSS against CAP.
+
 Usage: ``python benchmarks/bench_scale.py [--weeks 10 30 100] [--seed S]``
+or ``python benchmarks/bench_scale.py --cap-mib 640 [--cap-factor 3]``
 """
 
 from __future__ import annotations
@@ -21,7 +27,6 @@ from __future__ import annotations
 import argparse
 import json
 import os
-import resource
 import subprocess
 import sys
 import tempfile
@@ -34,22 +39,21 @@ ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
 
 MIB = 1024.0 * 1024.0
-KIB = 1024  # ru_maxrss is in KiB on Linux
 DAYS_PER_WEEK = 5  # working days
 ONE_THREAD = {name: "1" for name in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS", "NUMBA_NUM_THREADS")}
 
 
-def child(paths: list[str], work: str, kind: str, workers: int) -> None:
+def child(paths: list[str], work: str, kind: str, workers: int, cap_bytes: int = 0) -> None:
     """Run the partitioned pass once and print its figures (JSON) on stdout."""
     import dataclasses
 
     from fleetfuel.config import RunConfig
     from fleetfuel.engine.config import EngineConfig
-    from fleetfuel.engine.executors import make_engine, pin_threads
+    from fleetfuel.engine.executors import make_engine, peak_rss_bytes, pin_threads
     from fleetfuel.engine.stream import prepare_fleet
 
     pin_threads()
-    cfg = dataclasses.replace(RunConfig(), engine=EngineConfig(kind=kind, workers=workers))
+    cfg = dataclasses.replace(RunConfig(), engine=EngineConfig(kind=kind, workers=workers, memory_limit_bytes=cap_bytes))
     with make_engine(cfg.engine) as engine:
         start = time.perf_counter()
         fleet = prepare_fleet(paths, cfg, work, engine)
@@ -61,15 +65,16 @@ def child(paths: list[str], work: str, kind: str, workers: int) -> None:
     raw = sum(p.stat().st_size for p in (folder / "raw").rglob("*.parquet"))
     print(json.dumps({
         "wall_s": wall, "rows_in": int(fleet.account["rows_in"].sum()), "partitions": len(fleet.partitions),
-        "driver_peak_mib": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss * KIB / MIB,
+        "driver_peak_mib": peak_rss_bytes() / MIB,
         "worker_peak_mib": peaks.to_dict(), "dataset_bytes": dataset, "raw_copy_bytes": raw,
         "workers_used": int(tasks.loc[tasks["stage"] == "clean", "worker"].nunique()),
     }))
 
 
-def measure(paths: list[Path], work: Path, kind: str, workers: int) -> dict:
+def measure(paths: list[Path], work: Path, kind: str, workers: int, cap_bytes: int = 0) -> dict:
     env = {**os.environ, **ONE_THREAD, "PYTHONPATH": str(ROOT) + os.pathsep + os.environ.get("PYTHONPATH", "")}
-    cmd = [sys.executable, str(Path(__file__).resolve()), "--child", kind, str(workers), str(work), *map(str, paths)]
+    cmd = [sys.executable, str(Path(__file__).resolve()), "--child", kind, str(workers), str(cap_bytes), str(work),
+           *map(str, paths)]
     out = subprocess.run(cmd, env=env, capture_output=True, text=True, check=False)
     if out.returncode != 0:
         raise SystemExit(f"child failed ({kind}, {workers}): {out.stderr.strip().splitlines()[-1:]}")
@@ -86,17 +91,57 @@ def make_fleet(folder: Path, vehicle_weeks: int, seed: int) -> tuple[Path, int]:
     return folder, sum(p.stat().st_size for p in files)
 
 
+def make_capped_fleet(folder: Path, target_bytes: float, seed: int, vehicles: int = 20) -> tuple[int, float, int]:
+    """Weeks of ``vehicles`` generated one at a time until their samples took ``target_bytes`` in
+    memory; (vehicle-weeks, samples' bytes in memory, input file bytes)."""
+    import pandas as pd
+
+    from fleetfuel import synth
+
+    held, size, week, start = 0.0, 0, 0, pd.Timestamp("2025-03-10")
+    while held < target_bytes:
+        samples = synth.fleet(n_vehicles=vehicles, n_days=DAYS_PER_WEEK, seed=seed + week, with_truth=False,
+                              start_date=(start + pd.Timedelta(weeks=week)).date().isoformat()).samples
+        held += float(samples.memory_usage(deep=True).sum())
+        size += sum(p.stat().st_size for p in synth.write_daily_files(samples, folder))
+        week += 1
+        del samples
+    return week * vehicles, held, size
+
+
+def cap_run(cap_mib: float, factor: float, seed: int) -> int:
+    """The memory-cap measurement (see the module docstring)."""
+    cap = int(cap_mib * MIB)
+    with tempfile.TemporaryDirectory(prefix="fleetfuel-bench-cap-") as tmp:
+        base = Path(tmp)
+        weeks, held, size = make_capped_fleet(base / "fleet", factor * cap, seed)
+        print(f"fleet: {weeks} vehicle-weeks, samples {held / MIB:,.0f} MiB in memory ({held / cap:.1f}x the "
+              f"{cap_mib:.0f} MiB cap), input files {size / MIB:,.0f} MiB")
+        got = measure([base / "fleet"], base / "work", "dask", 2, cap)
+        peaks = sorted(got["worker_peak_mib"].values())
+        worst = max([got["driver_peak_mib"], *peaks])
+        verdict = "under" if worst < cap_mib else "OVER"
+        print(f"{got['rows_in']:,} rows in {got['partitions']} partitions, {got['wall_s']:.1f} s on 2 Dask workers")
+        print(f"peak RSS: driver {got['driver_peak_mib']:.0f} MiB, workers [{', '.join(f'{v:.0f}' for v in peaks)}] MiB: "
+              f"largest {worst:.0f} MiB, {worst / cap_mib:.2f}x the cap ({verdict} the cap)")
+    return 0
+
+
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--weeks", type=int, nargs=3, default=[10, 30, 100], help="fleet sizes in vehicle-weeks")
     parser.add_argument("--seed", type=int, default=20250310)
+    parser.add_argument("--cap-mib", type=float, help="measure the memory cap instead (MiB per process)")
+    parser.add_argument("--cap-factor", type=float, default=3.0, help="fleet's samples in memory / cap")
     parser.add_argument("--child", nargs="+", help=argparse.SUPPRESS)
     args = parser.parse_args(argv)
     if args.child:
-        kind, workers, work, *paths = args.child
-        child(paths, work, kind, int(workers))
+        kind, workers, cap, work, *paths = args.child
+        child(paths, work, kind, int(workers), int(cap))
         return 0
     print(f"machine: {os.cpu_count()} CPUs; python {sys.version.split()[0]}")
+    if args.cap_mib:
+        return cap_run(args.cap_mib, args.cap_factor, args.seed)
     with tempfile.TemporaryDirectory(prefix="fleetfuel-bench-scale-") as tmp:
         base = Path(tmp)
         runs = []

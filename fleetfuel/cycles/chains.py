@@ -17,6 +17,7 @@ from typing import Final
 
 import numpy as np
 import numpy.typing as npt
+from numba import njit
 from scipy import sparse
 
 from fleetfuel.cycles.config import CyclesConfig
@@ -125,6 +126,77 @@ def _walks(prob: Problem, rng: np.random.Generator, n: int) -> tuple[list[IntArr
     return rows, cols, dur, valid
 
 
+@njit(cache=True)
+def _bucket_sort(keys, cols, size, cut, slot, start):  # pragma: no cover - compiled
+    """Sort ``cols[:size]`` by ``keys[cols]`` in place; the keys are uniform on ``[0, cut)``.
+
+    Bucket sort (one bucket per element, then an insertion pass over the nearly sorted result):
+    linear time on uniform keys, where a comparison sort costs :math:`n \\log n`.
+    """
+    start[: size + 1] = 0
+    for i in range(size):
+        slot[i] = min(int(keys[cols[i]] / cut * size), size - 1)
+        start[slot[i] + 1] += 1
+    for b in range(size):
+        start[b + 1] += start[b]
+    placed = start[:size].copy()
+    ordered = np.empty(size, dtype=np.int64)
+    for i in range(size):
+        ordered[placed[slot[i]]] = cols[i]
+        placed[slot[i]] += 1
+    for i in range(1, size):
+        col = ordered[i]
+        key = keys[col]
+        k = i
+        while k > 0 and keys[ordered[k - 1]] > key:
+            ordered[k] = ordered[k - 1]
+            k -= 1
+        ordered[k] = col
+    cols[:size] = ordered
+
+
+@njit(cache=True)
+def _fill_draw(keys, width, duration, base, target):  # pragma: no cover - compiled
+    """Per row of ``keys``: the ``width`` smallest keys' columns in key order (a random ordered draw
+    without replacement), and how many of them bring ``base`` plus their durations nearest ``target``.
+
+    Equal to ``argpartition`` then ``argsort`` on the kept keys and ``argmin`` over the running
+    totals (first of equal ones), in one scan per row: the keys are uniform, so the ``width``
+    smallest lie below ``(width + 4 sqrt(width)) / n`` but rarely (the cut doubles until they
+    do), and only those few are sorted, by buckets (:func:`random_sets`' hot spot).
+    """
+    rows, n = keys.shape
+    take = np.empty((rows, width), dtype=np.int64)
+    count = np.zeros(rows, dtype=np.int64)
+    below = np.empty(n, dtype=np.int64)
+    slot = np.empty(n, dtype=np.int64)
+    start = np.empty(n + 1, dtype=np.int64)
+    first = min(1.0, (width + 4.0 * np.sqrt(width) + 4.0) / n)  # keys are uniform on [0, 1)
+    for r in range(rows):
+        row = keys[r]
+        cut = first
+        while True:
+            size = 0
+            for j in range(n):
+                if row[j] < cut:
+                    below[size] = j
+                    size += 1
+            if size >= width or cut >= 1.0:
+                break
+            cut = min(1.0, 2.0 * cut)
+        _bucket_sort(row, below, size, cut, slot, start)
+        take[r] = below[:width]
+        best = abs(base[r] - target)
+        running = 0.0
+        for k in range(width):
+            running += duration[take[r, k]]
+            off = abs((base[r] + running) - target)
+            if off < best:
+                best = off
+                count[r] = k + 1
+    return take, count
+
+
 def random_sets(prob: Problem, rng: np.random.Generator, n: int) -> sparse.csr_matrix:
     """``n`` random sets near the target duration, as rows of a (sets x pieces) count matrix.
 
@@ -147,16 +219,11 @@ def random_sets(prob: Problem, rng: np.random.Generator, n: int) -> sparse.csr_m
         base[chain] = np.where(valid, dur, np.inf)
     shortest = prob.duration[fill].min() if fill.size else cfg.target_duration_s
     width = int(min(fill.size, np.ceil(cfg.target_duration_s * (1 + cfg.duration_tolerance) / shortest) + 1))
+    fill_duration = prob.duration[fill]
     for start in range(0, n if width else 0, CHUNK):
         part = slice(start, min(start + CHUNK, n))
         keys = rng.random((part.stop - part.start, fill.size))
-        if width < fill.size:
-            take = np.argpartition(keys, width - 1, axis=1)[:, :width]
-        else:
-            take = np.tile(np.arange(fill.size), (keys.shape[0], 1))
-        take = np.take_along_axis(take, np.argsort(np.take_along_axis(keys, take, axis=1), axis=1), axis=1)
-        totals = np.concatenate([base[part, None], base[part, None] + np.cumsum(prob.duration[fill[take]], axis=1)], axis=1)
-        count = np.argmin(np.abs(totals - cfg.target_duration_s), axis=1)
+        take, count = _fill_draw(keys, width, fill_duration, base[part], cfg.target_duration_s)
         at_row, at_col = np.nonzero(np.arange(width)[None, :] < count[:, None])
         rows.append(at_row + part.start)
         cols.append(fill[take[at_row, at_col]])

@@ -72,13 +72,30 @@ def pin_threads() -> None:
     pa.set_io_thread_count(1)
 
 
+def peak_rss_bytes() -> int:
+    """This process's peak resident set size. [B]
+
+    Linux: ``VmHWM`` of ``/proc/self/status``, the peak of this program's own memory. Not
+    ``ru_maxrss``: Linux carries the parent's peak across ``fork`` and ``exec`` into it, so a worker
+    or benchmark child started by a large process would report the parent's size. Elsewhere
+    ``ru_maxrss`` (KiB on Linux and the BSDs, bytes on macOS; taken as KiB).
+    """
+    try:
+        with open("/proc/self/status", encoding="ascii") as status:
+            for line in status:
+                if line.startswith("VmHWM:"):
+                    return int(line.split()[1]) * KIB
+    except OSError:
+        pass
+    return int(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss) * KIB
+
+
 def run_task(fn: Callable[[T], R], stage: str, key: str, item: T) -> Outcome[R]:
     """Run ``fn(item)`` with one BLAS thread and time it (what every engine calls per task)."""
     start = time.perf_counter()
     with threadpool_limits(limits=1):
         value = fn(item)
-    peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss * KIB
-    return Outcome(value, TaskRecord(stage, key, worker_name(), time.perf_counter() - start, peak))
+    return Outcome(value, TaskRecord(stage, key, worker_name(), time.perf_counter() - start, peak_rss_bytes()))
 
 
 class Engine:

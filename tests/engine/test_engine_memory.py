@@ -18,7 +18,6 @@ import pytest
 from fleetfuel import synth
 
 ROOT = Path(__file__).resolve().parents[2]
-KIB = 1024  # ru_maxrss is in KiB on Linux
 
 
 def _fleet(folder: Path, vehicles: int, days: int) -> int:
@@ -28,14 +27,14 @@ def _fleet(folder: Path, vehicles: int, days: int) -> int:
 
 
 CHILD = """
-import json, resource, sys
+import json, sys
 from fleetfuel.config import RunConfig
-from fleetfuel.engine.executors import ProcessEngine
+from fleetfuel.engine.executors import ProcessEngine, peak_rss_bytes
 from fleetfuel.engine.stream import prepare_fleet
 with ProcessEngine(1) as engine:
     fleet = prepare_fleet([sys.argv[1]], RunConfig(), sys.argv[2], engine)
 tasks = fleet.tasks()
-print(json.dumps([resource.getrusage(resource.RUSAGE_SELF).ru_maxrss * 1024, int(tasks["peak_rss_bytes"].max())]))
+print(json.dumps([peak_rss_bytes(), int(tasks["peak_rss_bytes"].max())]))
 """
 
 
