@@ -66,7 +66,10 @@ class CleanConfig:
         Median ratio reported/position outside ``1 +- tolerance``: ``speed_position_mismatch``. [1]
     unit_ratio_tolerance : float
         Median ratio within this relative distance of a unit factor (1.609, 3.6, ...):
-        ``speed_unit_suspect``. [1]
+        ``speed_unit_suspect``; also the tolerance of a mix-up block's ratio (:mod:`fleetfuel.clean.mixup`). [1]
+    unit_block_min_ratio : float
+        Only unit factors at least this far from 1 (either way) are undone in a block of a file:
+        ``speed_unit_corrected``. [1]
     walking_speed_max_m_s : float
         Files whose moving speed stays below this at the 95th percentile are walking. [m/s]
     walking_min_moving_s : float
@@ -137,6 +140,9 @@ class CleanConfig:
     reconcile_min_samples: int = 60  # a minute at 1 Hz (common practice, no source)
     reconcile_tolerance: float = 0.15  # common practice, no source
     unit_ratio_tolerance: float = 0.05  # common practice, no source
+    # 1.3 keeps mph vs knots (1.151) out: a poor position track can disagree that much with a good
+    # speed signal; km/h vs mph (1.609) and beyond cannot be GNSS error (common practice, no source).
+    unit_block_min_ratio: float = 1.3
 
     # --- not a road vehicle -----------------------------------------------------------------------
     # Walking speed is about 1.2-1.5 m/s (Highway Capacity Manual, pedestrian chapter, from memory);

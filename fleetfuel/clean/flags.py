@@ -5,6 +5,8 @@ Flags warn; they never drop rows. Each is decided on one vehicle's samples of on
 * ``low_rate``: logging interval of at least ``low_rate_interval_s`` (accelerations not observable).
 * ``speed_unit_suspect``: reported speed over position-derived speed sits near a unit factor
   (km/h vs m/s 3.6, mph vs km/h 1.609, ...): the profile probably names the wrong unit.
+* ``speed_unit_corrected``: a block of the file's speeds was a strong unit factor off and was
+  divided by it (see :mod:`fleetfuel.clean.mixup`).
 * ``speed_position_mismatch``: the two disagree by more than ``reconcile_tolerance`` otherwise.
 * ``speed_from_positions``: some speeds were derived from positions (the log lacks them).
 * ``position_step``: the track jumps and stays (see :mod:`fleetfuel.clean.outliers`).
@@ -28,6 +30,7 @@ from fleetfuel.units import INTERNATIONAL_MILE_M, NAUTICAL_MILE_M, SECONDS_PER_H
 
 FLAG_LOW_RATE: Final = "low_rate"
 FLAG_SPEED_UNIT_SUSPECT: Final = "speed_unit_suspect"
+FLAG_SPEED_UNIT_CORRECTED: Final = "speed_unit_corrected"
 FLAG_SPEED_POSITION_MISMATCH: Final = "speed_position_mismatch"
 FLAG_SPEED_FROM_POSITIONS: Final = "speed_from_positions"
 FLAG_POSITION_STEP: Final = "position_step"
@@ -37,6 +40,7 @@ FLAG_NO_ELEVATION: Final = "no_elevation"
 CLEAN_FLAGS: Final = (
     FLAG_LOW_RATE,
     FLAG_SPEED_UNIT_SUSPECT,
+    FLAG_SPEED_UNIT_CORRECTED,
     FLAG_SPEED_POSITION_MISMATCH,
     FLAG_SPEED_FROM_POSITIONS,
     FLAG_POSITION_STEP,

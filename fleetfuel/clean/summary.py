@@ -37,6 +37,7 @@ class GridFacts:
     gap_break: BoolArray
     reported: npt.NDArray[np.float64]
     derived: npt.NDArray[np.float64]
+    unit_fixed: BoolArray
     speed: npt.NDArray[np.float64]
     parked: BoolArray
     segment: IntArray
@@ -48,7 +49,7 @@ class GridFacts:
     @classmethod
     def empty(cls) -> GridFacts:
         f, b, i = np.empty(0), np.empty(0, dtype=bool), np.empty(0, dtype=np.int64)
-        return cls(rows=i, time_ns=i, interpolated=b, gap_break=b, reported=f, derived=f, speed=f, parked=b,
+        return cls(rows=i, time_ns=i, interpolated=b, gap_break=b, reported=f, derived=f, unit_fixed=b, speed=f, parked=b,
                    segment=i, raw_elev=f, climb=f, clipped=b, distance=f)
 
 
@@ -94,6 +95,8 @@ def _flags_of_file(
     verdict, _ = fl.speed_verdict(g.reported[real], g.derived[real], cfg)
     if verdict:
         out.append(verdict)
+    if (real & g.unit_fixed).any():
+        out.append(fl.FLAG_SPEED_UNIT_CORRECTED)
     if (real & ~np.isfinite(g.reported) & np.isfinite(g.derived)).any():
         out.append(fl.FLAG_SPEED_FROM_POSITIONS)
     every = bool(sel.all())

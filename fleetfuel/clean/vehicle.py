@@ -7,7 +7,8 @@
    (:mod:`fleetfuel.clean.outliers`; a bad position on a row with a reported speed is blanked
    and the row kept, without a speed the row is dropped with the reason);
 4. uniform grid with breaks (:mod:`fleetfuel.clean.resample`);
-5. speed from positions where the log has none; reported vs derived speed check;
+5. speed from positions where the log has none; blocks of speeds in the wrong unit undone
+   (:mod:`fleetfuel.clean.mixup`); reported vs derived speed check;
 6. standstill and parked drift (:mod:`fleetfuel.clean.parked`);
 7. distance, acceleration, smoothed elevation and grade per stretch (:mod:`fleetfuel.clean.elevation`);
 8. file flags (:mod:`fleetfuel.clean.flags`) and a per-file summary for the row account.
@@ -31,6 +32,7 @@ import pandas as pd
 from fleetfuel import schema
 from fleetfuel.clean.config import CleanConfig
 from fleetfuel.clean.elevation import grade_profile
+from fleetfuel.clean.mixup import unit_block_divisors
 from fleetfuel.clean.motion import acceleration_m_s2, cumulative_distance_m, grid_speed_from_positions
 from fleetfuel.clean.order import time_ns
 from fleetfuel.clean.parked import hold_positions, standstill
@@ -222,6 +224,10 @@ def clean_vehicle(samples: pd.DataFrame, cfg: CleanConfig) -> VehicleClean:
     )
     with np.errstate(invalid="ignore"):  # a position jump left in (a lasting step): not a speed
         derived[derived > cfg.speed_ceiling_m_s] = np.nan
+    divisor = unit_block_divisors(reported, derived, cfg)
+    unit_fixed = divisor != 1.0
+    if unit_fixed.any():
+        reported = reported / divisor
     speed = np.where(np.isfinite(reported), reported, derived)
     parked = standstill(speed, lat0, lon0, seg, h, cfg) & np.isfinite(speed)
     speed = np.where(parked, 0.0, speed)
@@ -242,7 +248,7 @@ def clean_vehicle(samples: pd.DataFrame, cfg: CleanConfig) -> VehicleClean:
         raise InternalError(f"clean_vehicle: {n} rows in, {kept.size} kept + {len(dropped)} dropped")
     facts = GridFacts(
         rows=rows, time_ns=plan.times_ns(), interpolated=plan.interpolated, gap_break=plan.gap_break,
-        reported=reported, derived=derived, speed=speed, parked=parked, segment=seg, raw_elev=raw_elev,
+        reported=reported, derived=derived, unit_fixed=unit_fixed, speed=speed, parked=parked, segment=seg, raw_elev=raw_elev,
         climb=climb, clipped=clipped, distance=distance,
     )
     files = file_summary(w, t_ns, screened, facts, h, cfg)

@@ -50,6 +50,10 @@ class SegmentConfig:
     key_off_min_s : float
         Engine off for at least this much of a standstill is a key-off: it ends the trip even
         when the standstill is shorter than ``trip_break_s``. [s]
+    unlogged_min_m : float
+        Between two trips of one operating period, a straight-line jump from the one's last fix
+        to the other's first of at least this is distance driven while the log was silent
+        (:func:`fleetfuel.segment.trips.unlogged_distance_m`). [m]
     period_rest_s : float
         A rest (standstill or log absence) lasting at least this between two moving samples
         ends an operating period. [s]
@@ -107,6 +111,9 @@ class SegmentConfig:
     # Regulation (EC) No 561/2006, Articles 4, 7 and 8 (from memory). Not a calendar day: a night
     # shift stays whole.
     period_rest_s: float = 4.0 * SECONDS_PER_HOUR
+    # Well beyond the position error of two fixes at one parking place (tens of metres with urban
+    # multipath), well below what a minute's outage at road speed covers (common practice, no source).
+    unlogged_min_m: float = 100.0
 
     # --- route discovery --------------------------------------------------------------------------
     # A depot yard or customer site spans a few hundred metres (common practice, no source).

@@ -41,6 +41,7 @@ ROUTE_TABLE_COLUMNS = (
     "vehicle_ids",
     "trips",
     "distance_km",
+    "unlogged_km",
     "duration_h",
     "end_a_lat_deg",
     "end_a_lon_deg",
@@ -104,7 +105,8 @@ def _route_table(trips: pd.DataFrame, ends: pd.DataFrame, rules: pd.DataFrame | 
             "vehicles": grouped[schema.VEHICLE_ID].nunique(),
             "vehicle_ids": grouped[schema.VEHICLE_ID].agg(lambda s: " ".join(sorted(set(map(str, s))))),
             "trips": grouped.size(),
-            "distance_km": grouped["distance_m"].sum() / METRES_PER_KM,
+            "distance_km": (grouped["distance_m"].sum() + grouped["unlogged_m"].sum()) / METRES_PER_KM,
+            "unlogged_km": grouped["unlogged_m"].sum() / METRES_PER_KM,
             "duration_h": grouped["duration_s"].sum() / SECONDS_PER_HOUR,
             "end_a_lat_deg": grouped["start_lat_deg"].median(),
             "end_a_lon_deg": grouped["start_lon_deg"].median(),
@@ -151,7 +153,9 @@ def assign_routes(
         (rows between trips keep a logged ``route`` value and have <NA> ``route_source``).
     route_table : DataFrame
         :data:`ROUTE_TABLE_COLUMNS`, one row per route, sorted by name: its source, vehicles,
-        trips, distance [km], time [h], end points [deg] with a description, and the routes
+        trips, distance [km] (logged plus ``unlogged_km``, the jumps across logging gaps of
+        :func:`fleetfuel.segment.trips.unlogged_distance_m`), time [h], end points [deg] with a
+        description, and the routes
         file's ``payload_kg`` [kg] and ``planned_annual_km`` [km] (NaN when not given).
     """
     cfg = cfg or SegmentConfig()

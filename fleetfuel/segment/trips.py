@@ -11,6 +11,7 @@ import numpy as np
 import pandas as pd
 
 from fleetfuel import schema
+from fleetfuel.clean.geodesy import geodesic_distance_m
 from fleetfuel.errors import InternalError
 from fleetfuel.segment._frame import float_column, group_ends, group_starts, ordered, seconds
 from fleetfuel.segment.config import SegmentConfig
@@ -25,6 +26,7 @@ TRIP_TABLE_COLUMNS = (
     "end_utc",
     "duration_s",
     "distance_m",
+    "unlogged_m",
     "start_lat_deg",
     "start_lon_deg",
     "end_lat_deg",
@@ -138,8 +140,9 @@ def trip_table(samples: pd.DataFrame, cfg: SegmentConfig | None = None) -> pd.Da
     -------
     DataFrame
         :data:`TRIP_TABLE_COLUMNS`: ``duration_s`` [s] and ``distance_m`` [m] (trapezoidal
-        integral of speed, :mod:`fleetfuel.segment.kinematics`), first and last finite position
-        [deg] (NaN without positions), ``samples`` (rows), ``route`` (the most frequent value of a
+        integral of speed, :mod:`fleetfuel.segment.kinematics`), ``unlogged_m`` [m]
+        (:func:`unlogged_distance_m`), first and last finite position [deg] (NaN without
+        positions), ``samples`` (rows), ``route`` (the most frequent value of a
         ``route`` column in the trip, <NA> when none). Sorted by vehicle and start time.
     """
     cfg = cfg or SegmentConfig()
@@ -183,8 +186,46 @@ def trip_table(samples: pd.DataFrame, cfg: SegmentConfig | None = None) -> pd.Da
                              ("end_lat_deg", lat, prev_fix), ("end_lon_deg", lon, prev_fix)):
             table[col] = np.where(has, src[np.clip(at, 0, codes.size - 1)], np.nan)
     table[schema.ROUTE] = table[schema.TRIP_ID].map(_route_mode(rows)).astype("string")
-    table = table[list(TRIP_TABLE_COLUMNS)]
-    return table.sort_values([schema.VEHICLE_ID, "start_utc"], kind="stable").reset_index(drop=True)
+    table = table.sort_values([schema.VEHICLE_ID, "start_utc"], kind="stable").reset_index(drop=True)
+    table["unlogged_m"] = unlogged_distance_m(table, cfg)
+    return table[list(TRIP_TABLE_COLUMNS)]
+
+
+def unlogged_distance_m(trips: pd.DataFrame, cfg: SegmentConfig | None = None) -> np.ndarray:
+    """Distance a vehicle covered while its log was silent, charged to the trip after the silence.
+
+    A long logging gap (a receiver outage, a logger reset) ends a trip like a stop does, but the
+    vehicle drove on: the next trip starts elsewhere. The straight-line (geodesic) distance from
+    the last fix of a trip to the first fix of the next trip of the same operating period counts
+    when it is at least ``cfg.unlogged_min_m``; a stop leaves the two fixes at one place. A lower
+    bound of the road distance (roads are longer than the straight line); nothing across a
+    period boundary, since a rest of hours may or may not hide driving.
+
+    Parameters
+    ----------
+    trips : DataFrame
+        Trip table columns ``vehicle_id``, ``period_id``, start and end positions, sorted by
+        vehicle and start time.
+    cfg : SegmentConfig, optional
+
+    Returns
+    -------
+    ndarray
+        Per trip, the distance before it that no sample covers (0 for a period's first trip). [m]
+    """
+    cfg = cfg or SegmentConfig()
+    n = len(trips)
+    if n < 2:
+        return np.zeros(n)
+    vehicle = trips[schema.VEHICLE_ID].astype("string").fillna("").to_numpy(dtype=object)
+    period = trips[schema.PERIOD_ID].astype("string").fillna("").to_numpy(dtype=object)
+    same = np.r_[False, (vehicle[1:] == vehicle[:-1]) & (period[1:] == period[:-1])]
+    jump = np.r_[np.nan, geodesic_distance_m(
+        trips["end_lat_deg"].to_numpy(np.float64)[:-1], trips["end_lon_deg"].to_numpy(np.float64)[:-1],
+        trips["start_lat_deg"].to_numpy(np.float64)[1:], trips["start_lon_deg"].to_numpy(np.float64)[1:],
+    )]
+    with np.errstate(invalid="ignore"):
+        return np.where(same & (jump >= cfg.unlogged_min_m), jump, 0.0)
 
 
 def period_table(samples: pd.DataFrame, cfg: SegmentConfig | None = None) -> pd.DataFrame:

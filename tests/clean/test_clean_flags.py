@@ -1,14 +1,17 @@
-"""File flags: walking and aircraft logs (real files), speed unit mix-ups (synthetic), road cars."""
+"""File flags: walking and aircraft logs (real files), speed unit mix-ups found and undone (synthetic), road cars."""
 
 from __future__ import annotations
 
 import numpy as np
+import numpy.typing as npt
+import pandas as pd
 import pytest
 from clean_frames import batch, log_file, real_log, synthetic
 
-from fleetfuel import synth
+from fleetfuel import schema, synth
 from fleetfuel.clean import CleanConfig, clean_batch
 from fleetfuel.clean import flags as fl
+from fleetfuel.clean.mixup import unit_block_divisors
 from fleetfuel.ingest import IngestConfig, read_logs
 
 CFG = CleanConfig()
@@ -42,19 +45,74 @@ def test_avionics_log_flagged_aircraft() -> None:
 def test_road_vehicles_are_not_flagged(pattern: str) -> None:
     # SOURCES.md: cars (and a small electric quadricycle) on public roads, some climbing 300 m
     flags = _flags(pattern)
-    for flag in (fl.FLAG_WALKING, fl.FLAG_AIRCRAFT, fl.FLAG_SPEED_UNIT_SUSPECT, fl.FLAG_SPEED_POSITION_MISMATCH):
+    for flag in (fl.FLAG_WALKING, fl.FLAG_AIRCRAFT, fl.FLAG_SPEED_UNIT_SUSPECT, fl.FLAG_SPEED_UNIT_CORRECTED,
+                 fl.FLAG_SPEED_POSITION_MISMATCH):
         assert flag not in flags
 
 
-@pytest.mark.parametrize("factor", [1.609344, 3.6])
-def test_unit_mixup_flagged(factor: float) -> None:
-    # synth unit mix-up over the whole log: km/h values read as mph (x 1.609344, NIST SP 811) or
-    # as m/s (x 3.6); positions are right, so the ratio reported/derived gives it away
+def _speed_error(truth: synth.DriveTruth, clean: pd.DataFrame) -> npt.NDArray[np.float64]:
+    """Clean minus true speed at the clean samples' times (truth interpolated). [m/s]"""
+    t_true = (truth.frame[schema.TIME_UTC] - truth.frame[schema.TIME_UTC].iloc[0]).dt.total_seconds().to_numpy()
+    t = (clean[schema.TIME_UTC] - truth.frame[schema.TIME_UTC].iloc[0]).dt.total_seconds().to_numpy()
+    return clean[schema.SPEED_M_S].to_numpy(dtype=np.float64) - np.interp(t, t_true, truth.frame[schema.SPEED_M_S].to_numpy())
+
+
+@pytest.mark.parametrize("factor", [1.609344, 3.6, 1 / 1.609344])
+def test_whole_log_unit_mixup_corrected(factor: float) -> None:
+    # synth unit mix-up over the whole log: km/h values read as mph (x 1.609344, NIST SP 811),
+    # as m/s (x 3.6) or mph read as km/h; positions are right, so the ratio reported/derived
+    # gives it away and the factor is undone: the clean speed is the true one again
     route = synth.line_route(8_000.0, limit_kmh=50.0, lights_every_m=1_000.0)
     spec = synth.DefectSpec(unit_mixup_vehicles=("SYN-01",), unit_mixup_factor=factor, unit_mixup_share=1.0)
+    truth, frame, _ = synthetic(route, "van", seed=1, spec=spec)
+    result = clean_batch(batch(log_file(frame)), CFG)
+    assert list(result.account["flags"].iloc[0]) == [fl.FLAG_SPEED_UNIT_CORRECTED]
+    error = _speed_error(truth, result.samples)
+    assert np.median(np.abs(error)) < 0.1  # the generator's speed noise is 0.1 m/s at most
+    assert result.samples[schema.DISTANCE_M].max() == pytest.approx(truth.distance_m, rel=0.01)
+
+
+def test_unit_mixup_block_corrected_only_inside() -> None:
+    # a block of 10 % of a 40 km drive with km/h values written as mph (x 1.609344, NIST SP 811):
+    # the block is found to within a few samples and undone; the rest of the log is left alone
+    route = synth.line_route(40_000.0, limit_kmh=80.0, lights_every_m=4_000.0)
+    spec = synth.DefectSpec(unit_mixup_vehicles=("SYN-01",), unit_mixup_factor=1.609344, unit_mixup_share=0.1)
+    truth, frame, injected = synthetic(route, "van", seed=3, spec=spec)
+    block = injected.unit_mixup.iloc[0]
+    result = clean_batch(batch(log_file(frame)), CFG)
+    assert fl.FLAG_SPEED_UNIT_CORRECTED in result.account["flags"].iloc[0]
+    error = np.abs(_speed_error(truth, result.samples))
+    rows = result.samples[schema.SOURCE_ROW].to_numpy()
+    inside = (rows >= block.first_row) & (rows <= block.last_row)
+    assert inside.sum() > 200
+    assert np.median(error[inside]) < 0.1
+    assert np.quantile(error, 0.99) < 1.0  # no stretch left x 1.6 (that would be metres per second off)
+    assert result.samples[schema.DISTANCE_M].max() == pytest.approx(truth.distance_m, rel=0.01)
+
+
+def test_weak_unit_factor_flagged_not_corrected() -> None:
+    # knots read as mph (x 1.151, NIST SP 811) is within what a poor track can disagree with a good
+    # speed signal: the whole-file verdict flags it, nothing is divided
+    route = synth.line_route(8_000.0, limit_kmh=50.0, lights_every_m=1_000.0)
+    spec = synth.DefectSpec(unit_mixup_vehicles=("SYN-01",), unit_mixup_factor=1852 / 1609.344, unit_mixup_share=1.0)
     _, frame, _ = synthetic(route, "van", seed=1, spec=spec)
-    flags = clean_batch(batch(log_file(frame)), CFG).account["flags"].iloc[0]
-    assert fl.FLAG_SPEED_UNIT_SUSPECT in flags
+    result = clean_batch(batch(log_file(frame)), CFG)
+    assert list(result.account["flags"].iloc[0]) == [fl.FLAG_SPEED_UNIT_SUSPECT]
+
+
+def test_unit_block_edges_by_hand() -> None:
+    # arrays with a known block: divisors exactly the factor on [1000, 1500), 1 elsewhere
+    rng = np.random.default_rng(1)
+    derived = 10 + 5 * np.sin(np.arange(5_000) / 200) + rng.normal(0, 0.3, 5_000)
+    reported = derived + rng.normal(0, 0.1, 5_000)
+    reported[1_000:1_500] *= 1.609344
+    divisor = unit_block_divisors(reported, derived, CFG)
+    assert np.flatnonzero(divisor != 1).tolist() == list(range(1_000, 1_500))
+    assert divisor[1_200] == pytest.approx(1.609344, rel=1e-12)
+    short = derived.copy()
+    short[1_000:1_040] *= 1.609344  # 40 samples: shorter than a verdict's minute
+    assert (unit_block_divisors(short, derived, CFG) == 1).all()
+    assert (unit_block_divisors(derived, np.full(5_000, np.nan), CFG) == 1).all()  # no positions, no change
 
 
 def test_honest_speed_not_flagged() -> None:

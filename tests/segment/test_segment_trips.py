@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import numpy as np
 import pandas as pd
 import pytest
@@ -18,6 +20,7 @@ from fleetfuel.segment import (
     split_trips,
     trip_table,
 )
+from fleetfuel.segment.trips import unlogged_distance_m
 
 
 def _shift(start: str, vehicle: str, trips: int, pause_s: int) -> pd.DataFrame:
@@ -166,3 +169,44 @@ def test_config_loads_from_a_run_toml_table() -> None:
     assert cfg.trip_break_s == 600.0 and cfg.route_unit == "trip"
     with pytest.raises(ConfigError, match=r"route_unit: choose from \('period', 'trip'\)"):
         from_mapping(SegmentConfig, {"route_unit": "day"}, "run.toml [segment]")
+
+
+def test_unlogged_distance_across_logging_gaps() -> None:
+    # a straight 40 km drive with outages of 2-5 min (rows removed by the generator): the trips
+    # miss the outages' distance; the jump from fix to fix gives it back. On a straight road the
+    # straight line is the road, so logged + unlogged = the generator's distance (common practice,
+    # no source: a lower bound of the road distance in general)
+    from fleetfuel import schema, synth
+    from fleetfuel.clean import CleanConfig, clean_batch
+    from fleetfuel.ingest.base import LogBatch, LogFile, conform, empty_dropped
+
+    route = synth.line_route(40_000.0, limit_kmh=80.0, lights_every_m=8_000.0)
+    truth = synth.drive(route, "van", seed=9, vehicle_id="V1")
+    damaged, injected = synth.add_defects(truth.frame, synth.DefectSpec(gaps_per_day=200.0, gap_s=(120.0, 300.0)), seed=9)
+    assert len(injected.gaps) == 5 and (injected.gaps["next_row"] > 0).all()  # five outages, none at the end
+    raw = conform(damaged.assign(**{schema.SOURCE_FILE: "gaps.csv", schema.SOURCE_ROW: np.arange(len(damaged))}))
+    log = LogFile(path=Path("gaps.csv"), samples=raw, rows_in=len(raw), dropped=empty_dropped(), profile="test")
+    clean = clean_batch(LogBatch(files=(log,), failures=()), CleanConfig()).samples
+    trips = trip_table(clean)
+    logged = trips["distance_m"].sum()
+    assert logged < 0.95 * truth.distance_m  # the outages hide more than 5 % of the drive
+    assert trips["unlogged_m"].iloc[0] == 0.0  # nothing before a period's first trip
+    assert logged + trips["unlogged_m"].sum() == pytest.approx(truth.distance_m, rel=0.01)
+
+
+def test_unlogged_distance_by_hand() -> None:
+    # three trips of one period and one of the next: the second starts 0.01 deg of latitude north
+    # of where the first ended (distance by geographiclib's WGS-84 Inverse, Karney 2013), the third
+    # where the second ended (a stop: nothing), the fourth in a new period (nothing charged across
+    # a period boundary)
+    from geographiclib.geodesic import Geodesic
+
+    trips = pd.DataFrame({
+        "vehicle_id": ["V1"] * 4, "period_id": ["p1", "p1", "p1", "p2"],
+        "start_lat_deg": [48.0, 48.02, 48.03, 49.0], "start_lon_deg": [11.0] * 4,
+        "end_lat_deg": [48.01, 48.03, 48.05, 49.1], "end_lon_deg": [11.0] * 4,
+    })
+    jump = unlogged_distance_m(trips)
+    assert jump[0] == 0.0 and jump[2] == 0.0 and jump[3] == 0.0
+    assert jump[1] == pytest.approx(Geodesic.WGS84.Inverse(48.01, 11.0, 48.02, 11.0)["s12"], rel=1e-9)
+    assert unlogged_distance_m(trips.assign(start_lat_deg=[48.0, 48.0105, 48.03, 49.0]))[1] == 0.0  # 56 m: a stop
