@@ -190,3 +190,11 @@ def test_dask_job_survives_a_worker_killed_after_the_first_partition(
         _same(local, outcome["tables"])  # type: ignore[arg-type]
     finally:
         engine.close()
+
+
+def test_warm_up_reaches_every_worker() -> None:
+    # the benchmarks start workers before timing: every worker answers, and nothing is logged
+    with make_engine(EngineConfig()) as local:
+        assert local.warm_up() == 1 and local.records == []
+    with make_engine(EngineConfig(kind="processes", workers=2)) as pool:
+        assert pool.warm_up() == 2 and pool.records == []
