@@ -7,7 +7,7 @@ from __future__ import annotations
 
 import dataclasses
 import tempfile
-from collections.abc import Iterator, Sequence
+from collections.abc import Callable, Iterator, Sequence
 from contextlib import ExitStack, contextmanager
 from dataclasses import dataclass
 from pathlib import Path
@@ -190,6 +190,7 @@ def cycles_paths(
 
 if TYPE_CHECKING:  # the forecast stage is imported when its job runs (keeps the other verbs fast)
     from fleetfuel.forecast import ForecastResult, Progress
+    from fleetfuel.forecast.logs import RouteLogs
 
 WORK_TABLES = ("routes", "missions", "route_forecast")
 """Intermediate tables the forecast job leaves in the work folder (Parquet), besides micro-trips and cycles."""
@@ -240,29 +241,45 @@ def forecast_inputs(
     InputDataError
         No usable samples in any input file.
     """
-    from fleetfuel.errors import CycleError, InputDataError
-
     cfg = _with_profile(cfg, profile)
-    cycles_cfg = cfg.cycles
+    step = _stage_steps(progress)
+    step(0)
+    with prepared(paths, cfg, work_dir, engine) as (fleet, _):
+        return _inputs_of(fleet, paths, cfg, routes_file, step)
 
+
+def _stage_steps(progress: Progress | None) -> Callable[[int], None]:
+    """``step(done)``: report the earlier stages (:data:`FORECAST_STAGES`) done to ``progress``."""
     def step(done: int) -> None:
         if progress is not None:
             progress(done, len(FORECAST_STAGES), FORECAST_STAGES[min(done, len(FORECAST_STAGES) - 1)])
 
-    step(0)
-    with prepared(paths, cfg, work_dir, engine) as (fleet, _):
-        if not fleet.clean_rows:
-            raise InputDataError(f"no usable samples in {', '.join(map(str, paths))}: every file failed or was empty")
-        step(1)
-        samples, routes, features = _segmented(fleet, cfg, routes_file)
-        account, failures = fleet.account, fleet.failures
+    return step
+
+
+def _inputs_of(fleet: PreparedFleet, paths: Sequence[str | Path], cfg: RunConfig, routes_file: str | Path | None,
+               step: Callable[[int], None]) -> ForecastInputs:
+    """:func:`forecast_inputs` of a prepared fleet."""
+    from fleetfuel.errors import CycleError, InputDataError
+
+    if not fleet.clean_rows:
+        raise InputDataError(f"no usable samples in {', '.join(map(str, paths))}: every file failed or was empty")
+    step(1)
+    samples, routes, features = _segmented(fleet, cfg, routes_file)
     step(2)
     try:
-        built: cycles.CycleSet | None = cycles.build_cycles(samples, features, cycles_cfg, cfg.segment)
+        built: cycles.CycleSet | None = cycles.build_cycles(samples, features, cfg.cycles, cfg.segment)
     except CycleError:  # too little driving for duty types: every route is simulated on its own logs
         built = None
-    return ForecastInputs(samples=samples, account=account, failures=failures, routes=routes,
+    return ForecastInputs(samples=samples, account=fleet.account, failures=fleet.failures, routes=routes,
                           microtrips=features, cycles=built)
+
+
+def trip_routes(samples: pd.DataFrame) -> pd.Series:
+    """Trip id -> route of a segmented frame with routes (the rows of trips carry their route)."""
+    in_trip = samples.loc[samples[schema.TRIP_ID].notna().to_numpy(), [schema.TRIP_ID, schema.ROUTE]]
+    by_trip = in_trip.drop_duplicates(schema.TRIP_ID)
+    return pd.Series(by_trip[schema.ROUTE].astype("string").to_numpy(), index=by_trip[schema.TRIP_ID].astype(str).to_numpy())
 
 
 def _write_work(work_dir: Path, result: ForecastResult, microtrips: pd.DataFrame) -> None:
@@ -290,8 +307,13 @@ def run_forecast(
     full: bool = False,
     work_dir: str | Path | None = None,
     progress: Progress | None = None,
+    logs: RouteLogs | None = None,
 ) -> ForecastResult:
-    """The forecast stage on prepared inputs (:func:`forecast_inputs`), with the catalogue of ``cfg.forecast``."""
+    """The forecast stage on prepared inputs (:func:`forecast_inputs`), with the catalogue of ``cfg.forecast``.
+
+    ``logs`` reads each route's logs where they are (the work folder, route by route, on an engine);
+    None reads them from ``inputs.samples``. Both give the same numbers.
+    """
     from fleetfuel import forecast
     from fleetfuel.resources import data_dir
     from fleetfuel.simulate import load_catalogue
@@ -299,7 +321,7 @@ def run_forecast(
     cfg = cfg or RunConfig()
     catalogue = cfg.forecast.catalogue
     result = forecast.forecast_fleet(
-        inputs.samples, inputs.routes, inputs.cycles, load_catalogue(catalogue), cfg.forecast,
+        inputs.samples if logs is None else logs, inputs.routes, inputs.cycles, load_catalogue(catalogue), cfg.forecast,
         microtrips=inputs.microtrips, full=full, sim_cfg=cfg.simulate, account=inputs.account, progress=progress,
         catalogue=str(catalogue) if catalogue else str(data_dir("models")),
     )
@@ -350,6 +372,12 @@ def forecast_paths(
     ConfigError
         Bad forecast settings (unclassified vehicles, unknown current spec, ...).
     """
-    inputs = forecast_inputs(paths, cfg, profile=profile, routes_file=routes_file, progress=progress,
-                             work_dir=work_dir, engine=engine)
-    return run_forecast(inputs, cfg, full=full, work_dir=work_dir, progress=progress)
+    from fleetfuel.engine.routes import WorkFolderLogs
+
+    cfg = _with_profile(cfg, profile)
+    step = _stage_steps(progress)
+    step(0)
+    with prepared(paths, cfg, work_dir, engine) as (fleet, running):
+        inputs = _inputs_of(fleet, paths, cfg, routes_file, step)
+        logs = WorkFolderLogs(fleet, trip_routes(inputs.samples), running)
+        return run_forecast(inputs, cfg, full=full, work_dir=work_dir, progress=progress, logs=logs)

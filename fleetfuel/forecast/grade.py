@@ -48,13 +48,23 @@ def sustained_grades(samples: pd.DataFrame, window_m: float) -> pd.Series:
     rows = samples.loc[keep, [schema.ROUTE, schema.TRIP_ID, schema.DISTANCE_M, schema.ELEVATION_M]]
     routes = sorted(samples[schema.ROUTE].dropna().astype(str).unique())
     out = pd.Series(np.nan, index=pd.Index(routes, name=schema.ROUTE), name="steepest_grade")
-    if rows.empty:
-        return out
-    codes, _ = pd.factorize(rows[schema.TRIP_ID])
+    route_of = rows[schema.ROUTE].astype(str).to_numpy()
+    for route in routes:  # one route at a time: its grade never depends on which other routes are read
+        mine = route_of == route
+        if mine.any():
+            out[route] = _steepest(rows[schema.TRIP_ID].to_numpy()[mine],
+                                   rows[schema.DISTANCE_M].to_numpy(dtype=np.float64)[mine],
+                                   rows[schema.ELEVATION_M].to_numpy(dtype=np.float64)[mine], window_m)
+    return out
+
+
+def _steepest(trip_ids: np.ndarray, distance_m: np.ndarray, elevation_m: np.ndarray, window_m: float) -> float:
+    """Steepest grade over ``window_m`` of road within one trip, of one route's rows (time order). [1]"""
+    codes, _ = pd.factorize(trip_ids)
     order = np.argsort(codes, kind="stable")  # rows stay in time order within a trip
     codes = codes[order]
-    distance = rows[schema.DISTANCE_M].to_numpy(dtype=np.float64)[order]
-    elevation = rows[schema.ELEVATION_M].to_numpy(dtype=np.float64)[order]
+    distance = distance_m[order]
+    elevation = elevation_m[order]
     distance = distance - distance.min()
     spacing = distance.max() + 2 * window_m
     axis = np.maximum.accumulate(distance + codes * spacing)  # trips end to end, a gap apart; never backwards
@@ -63,7 +73,4 @@ def sustained_grades(samples: pd.DataFrame, window_m: float) -> pd.Series:
     inside = (axis[j] >= end) & (codes[j] == codes)
     rise = np.interp(end, axis, elevation) - elevation
     grade = np.where(inside, rise / window_m, np.nan)
-    route = rows[schema.ROUTE].astype(str).to_numpy()[order]
-    found = pd.Series(grade).groupby(route).max()
-    out.loc[found.index] = found.to_numpy()
-    return out
+    return float(np.nanmax(grade)) if np.isfinite(grade).any() else float("nan")

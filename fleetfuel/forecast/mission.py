@@ -41,7 +41,6 @@ import pandas as pd
 from fleetfuel import schema
 from fleetfuel.errors import ConfigError
 from fleetfuel.forecast.config import ForecastConfig
-from fleetfuel.forecast.grade import sustained_grades
 from fleetfuel.segment.config import METRES_PER_KM
 from fleetfuel.units import SECONDS_PER_HOUR
 
@@ -157,7 +156,7 @@ def _duty_mix_text(weights: pd.DataFrame, labels: pd.Series) -> pd.Series:
 def mission_table(
     routes: pd.DataFrame,
     microtrips: pd.DataFrame,
-    samples: pd.DataFrame,
+    grades: pd.Series,
     weights: pd.DataFrame,
     type_labels: pd.Series,
     cfg: ForecastConfig,
@@ -171,8 +170,9 @@ def mission_table(
         Route table (:func:`fleetfuel.segment.assign_routes`).
     microtrips : DataFrame
         Typed micro-trip table (:attr:`fleetfuel.cycles.CycleSet.microtrips`).
-    samples : DataFrame
-        Segmented clean frame with routes (for the grades).
+    grades : Series
+        Route -> steepest sustained grade [1] (:meth:`fleetfuel.forecast.logs.RouteLogs.steepest_grades`;
+        routes missing from it get NaN).
     weights : DataFrame
         Type weights (:attr:`fleetfuel.cycles.CycleSet.weights`).
     type_labels : Series
@@ -209,7 +209,6 @@ def mission_table(
     table["payload_source"] = np.select(
         [payload_cfg.notna(), payload_file.notna(), payload_now.notna()],
         ["config", "routes file", "current spec default"], default="spec default")
-    grades = sustained_grades(samples, cfg.grade_window_m)
     table["steepest_grade"] = table[schema.ROUTE].map(grades).astype(np.float64)
     table["steepest_grade_pct"] = table["steepest_grade"] * PERCENT
     table["grade_window_m"] = cfg.grade_window_m

@@ -18,8 +18,6 @@ from fleetfuel.forecast.energy import (
     RouteEnergy,
     cycle_runs,
     energy_from_cycles,
-    energy_from_logs,
-    shift_traces,
 )
 from fleetfuel.forecast.feasibility import (
     best_gradeability_pct,
@@ -27,6 +25,7 @@ from fleetfuel.forecast.feasibility import (
     payload_reason,
     usable_after_reserve_kwh,
 )
+from fleetfuel.forecast.logs import FrameLogs, LogCell, RouteLogs
 from fleetfuel.forecast.mission import duty_mix_table, mission_table, shift_distances
 from fleetfuel.forecast.ranking import fleet_ranking, route_best, savings
 from fleetfuel.forecast.result import ForecastResult, assumption_list
@@ -159,18 +158,20 @@ def _operating_points(ranking: pd.DataFrame, table: pd.DataFrame, duty_mix: pd.D
     return {"spec": key, "vehicle_class": cls, "engine_speed_rpm": speed, "torque_nm": torque, **_fuel_map_grid(spec)}
 
 
-def _typed(cycle_set: CycleSet | None, microtrips: pd.DataFrame | None, samples: pd.DataFrame
+def _typed(cycle_set: CycleSet | None, microtrips: pd.DataFrame | None, samples: pd.DataFrame | RouteLogs
            ) -> tuple[pd.DataFrame, pd.DataFrame, pd.Series, dict[str, pd.DataFrame]]:
     """Typed micro-trips, type weights, type labels and cycle traces (untyped and empty without cycles)."""
     if cycle_set is not None:
         return cycle_set.microtrips, cycle_set.weights, cycle_set.types.set_index("type")["label"], cycle_set.cycles
+    if microtrips is None and not isinstance(samples, pd.DataFrame):
+        raise ConfigError("forecast_fleet: without a cycle set, give the micro-trip table (microtrips=...)")
     table = segment.microtrip_features(samples) if microtrips is None else microtrips
     table = table.assign(type=pd.Series(pd.NA, index=table.index, dtype="string"))
     return table, pd.DataFrame(columns=list(WEIGHT_COLUMNS)), pd.Series(dtype=str), {}
 
 
 def forecast_fleet(
-    samples: pd.DataFrame,
+    samples: pd.DataFrame | RouteLogs,
     routes: pd.DataFrame,
     cycle_set: CycleSet | None,
     specs: Sequence[VehicleSpec],
@@ -187,8 +188,9 @@ def forecast_fleet(
 
     Parameters
     ----------
-    samples : DataFrame
-        Segmented clean frame with routes (:func:`fleetfuel.segment.assign_routes`).
+    samples : DataFrame or RouteLogs
+        Segmented clean frame with routes (:func:`fleetfuel.segment.assign_routes`), or a source
+        that reads each route's logs where they are (:mod:`fleetfuel.forecast.logs`).
     routes : DataFrame
         Its route table.
     cycle_set : CycleSet or None
@@ -223,25 +225,31 @@ def forecast_fleet(
     sim_cfg = sim_cfg or SimConfig()
     by_id = _check_specs(specs, cfg)
     microtrips, weights_all, labels, cycles = _typed(cycle_set, microtrips, samples)
+    logs = FrameLogs(samples) if isinstance(samples, pd.DataFrame) else samples
     current_payload = {cls: by_id[key].body.payload_kg for cls, key in cfg.current_spec.items()}
-    missions = mission_table(routes, microtrips, samples, weights_all, labels, cfg, current_payload)
+    grades = logs.steepest_grades(sorted(routes[schema.ROUTE].astype(str)), cfg.grade_window_m)
+    missions = mission_table(routes, microtrips, grades, weights_all, labels, cfg, current_payload)
     shifts = shift_distances(microtrips)
     weights = weights_all.loc[weights_all["level"] == "route"]
     cache = _Cache(cycles, sim_cfg)
-    jobs = [(m, k, s) for m in missions.to_dict("records") for k, s in by_id.items() if s.vehicle_class == m["vehicle_class"]]
-    rows, traces = [], {}
-    for done, (mission, key, spec) in enumerate(jobs, start=1):
+    cells = []  # (mission, key, spec, payload, reason, mix, on logs)
+    for m in missions.to_dict("records"):
+        mix = weights.loc[weights["key"] == str(m[schema.ROUTE])].set_index("type")[["distance_share", "time_share"]]
+        on_logs = _use_logs(full, mix, cycles, float(m["driving_h"]))
+        for key, spec in by_id.items():
+            if spec.vehicle_class == m["vehicle_class"]:
+                payload = float(m["payload_kg"]) if np.isfinite(m["payload_kg"]) else spec.body.payload_kg
+                cells.append((m, key, spec, payload, payload_reason(spec, payload), mix, on_logs))
+    wanted = [LogCell(str(m[schema.ROUTE]), spec, payload) for m, _, spec, payload, reason, _, on in cells if on and not reason]
+    from_logs = iter(logs.log_energies(wanted, sim_cfg))  # every log-simulated cell at once (parallel where it can)
+    rows = []
+    for done, (mission, key, spec, payload, reason, mix, on_logs) in enumerate(cells, start=1):
         route = str(mission[schema.ROUTE])
-        mix = weights.loc[weights["key"] == route].set_index("type")[["distance_share", "time_share"]]
-        payload = float(mission["payload_kg"]) if np.isfinite(mission["payload_kg"]) else spec.body.payload_kg
-        reason = payload_reason(spec, payload)
         energy = envelope = None
         reasons = [reason] if reason else []
         if not reason:
-            if _use_logs(full, mix, cycles, float(mission["driving_h"])):
-                if route not in traces:
-                    traces[route] = shift_traces(samples, route)
-                energy = energy_from_logs(traces[route], spec, payload, sim_cfg)
+            if on_logs:
+                energy = next(from_logs)
             else:
                 runs, _ = cache.run(key, spec, payload)
                 energy = energy_from_cycles(runs, mix, shifts.loc[shifts[schema.ROUTE] == route], spec)
@@ -249,7 +257,7 @@ def forecast_fleet(
             reasons = check_cell(spec, energy, envelope, float(mission["steepest_grade"]), cfg)
         rows.append(_cell(mission, key, spec, energy, envelope, payload, reasons, cfg))
         if progress is not None:
-            progress(done, len(jobs), f"{route} x {key}")
+            progress(done, len(cells), f"{route} x {key}")
     table = pd.DataFrame(rows, columns=list(FORECAST_COLUMNS))
     table = table.sort_values(["vehicle_class", schema.ROUTE, "spec"], kind="stable").reset_index(drop=True)
     ranking = fleet_ranking(table)

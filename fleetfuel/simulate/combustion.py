@@ -150,11 +150,10 @@ def evaluate_gears(spec: VehicleSpec, speed_m_s: FloatArray, accel_m_s2: FloatAr
     np.multiply(base_force_n, c, out=per_step[:, 0])
     per_step[:, 0] += aux
     np.multiply(accel_m_s2, c, out=per_step[:, 1])
-    torque = per_step @ np.vstack((1 / ratios, inertia_extra_kg / ratios))
+    # explicit products, not a BLAS matrix product: the same digits whatever the thread count
+    torque = per_step[:, :1] * (1 / ratios) + per_step[:, 1:] * (inertia_extra_kg / ratios)
     wheel_rpm = speed_m_s / (radius_m * RPM_RAD_S)
-    per_step[:, 0] = wheel_rpm
-    per_step[:, 1] = 1.0
-    speed_norm = per_step @ np.vstack((ratios / span, np.full(ratios.size, -idle / span)))
+    speed_norm = wheel_rpm[:, None] * (ratios / span) + (-idle / span)
     rpm, nm = engine.full_load_arrays()
     full = np.interp(speed_norm, (rpm - idle) / span, nm, left=nm[0], right=0.0)
     with np.errstate(divide="ignore", invalid="ignore"):

@@ -256,16 +256,23 @@ def simulate_trace(time_s: npt.ArrayLike, speed_m_s: npt.ArrayLike, grade: npt.A
                      weight_s=weight, road=road, steps=steps, short=short, speed_deficit_m_s=deficit, totals=totals)
 
 
+def _dot(a: npt.ArrayLike, b: npt.ArrayLike) -> float:
+    """Sum of ``a * b`` by numpy's pairwise summation, not BLAS ``ddot``: a threaded BLAS splits
+    long dot products by thread count, so the last digits would depend on the machine and on
+    the engine a task runs in (one thread in workers)."""
+    return float(np.sum(np.multiply(a, b)))
+
+
 def _totals(spec: VehicleSpec, t: FloatArray, v_trace: FloatArray, v: FloatArray, w: FloatArray, road: RoadLoad,
             steps: PowertrainSteps, short: npt.NDArray[np.bool_], deficit: FloatArray, mass: float, rotating: float,
             g: FloatArray, rho: FloatArray, accel_trace: FloatArray, cfg: SimConfig) -> SimTotals:
     vw = v * w  # distance per step [m]: energies are dot products with it, no temporaries
 
     def kwh_force(force_n: FloatArray) -> float:
-        return float(np.dot(force_n, vw) / JOULES_PER_KWH)
+        return float(_dot(force_n, vw) / JOULES_PER_KWH)
 
     duration = float(t[-1] - t[0])
-    distance_km = float(np.dot(v_trace, w) / M_PER_KM)
+    distance_km = float(_dot(v_trace, w) / M_PER_KM)
     wheel_positive_kwh = kwh_force(np.maximum(steps.wheel_force_n, 0.0))
     # demanded by the trace itself (uncapped speed) on the short steps, minus what was delivered
     shortfall_kwh = 0.0
@@ -275,12 +282,12 @@ def _totals(spec: VehicleSpec, t: FloatArray, v_trace: FloatArray, v: FloatArray
                            rolling_coefficient=spec.body.rolling_coefficient, drag_area_m2=spec.drag_area_m2,
                            air_density_kg_m3=np.broadcast_to(rho, t.shape)[idx]).total_n * v_trace[idx]
         missing_w = np.maximum(demand - np.maximum(steps.wheel_force_n[idx] * v[idx], 0.0), 0.0)
-        shortfall_kwh = float(np.dot(missing_w, w[idx]) / JOULES_PER_KWH)
-    fuel_kg = float(np.dot(steps.fuel_rate_g_s, w) / G_PER_KG)
+        shortfall_kwh = float(_dot(missing_w, w[idx]) / JOULES_PER_KWH)
+    fuel_kg = float(_dot(steps.fuel_rate_g_s, w) / G_PER_KG)
     fuel = spec.fuel
     per_100 = KM_PER_100KM / distance_km if distance_km > 0 else float("nan")
     fuel_l = fuel_kg / fuel.density_kg_l if fuel is not None and fuel.liquid else (0.0 if fuel is None else None)
-    battery_kwh = float(np.dot(steps.battery_power_w, w) / JOULES_PER_KWH)
+    battery_kwh = float(_dot(steps.battery_power_w, w) / JOULES_PER_KWH)
     grid_kwh = 0.0
     soc_end = soc_min = None
     if spec.battery is not None:
@@ -300,7 +307,7 @@ def _totals(spec: VehicleSpec, t: FloatArray, v_trace: FloatArray, v: FloatArray
         fuel_kg_per_100km=fuel_kg * per_100 if fuel is not None else None,
         battery_kwh=battery_kwh,
         grid_kwh=grid_kwh,
-        battery_throughput_kwh=float(np.dot(np.abs(steps.battery_power_w), w) / JOULES_PER_KWH),
+        battery_throughput_kwh=float(_dot(np.abs(steps.battery_power_w), w) / JOULES_PER_KWH),
         energy_kwh_per_km=battery_kwh / distance_km if spec.battery is not None and distance_km > 0 else None,
         co2_kg=fuel_kg * fuel.co2_kg_per_kg if fuel is not None else 0.0,
         shortfall_s=float(np.sum(w[short])),
@@ -310,9 +317,9 @@ def _totals(spec: VehicleSpec, t: FloatArray, v_trace: FloatArray, v: FloatArray
         rolling_kwh=kwh_force(road.rolling_n),
         aero_kwh=kwh_force(road.aero_n),
         grade_net_kwh=kwh_force(road.grade_n),
-        kinetic_net_kwh=float(mass * np.dot(road.inertia_n, vw) / (mass + rotating) / JOULES_PER_KWH),
+        kinetic_net_kwh=float(mass * _dot(road.inertia_n, vw) / (mass + rotating) / JOULES_PER_KWH),
         friction_brake_kwh=kwh_force(steps.friction_brake_n),
-        regen_kwh=float(np.dot(steps.regen_power_w, w) / JOULES_PER_KWH),
+        regen_kwh=float(_dot(steps.regen_power_w, w) / JOULES_PER_KWH),
         idle_s=float(np.sum(w[v <= 0])),
         soc_end=soc_end,
         soc_min=soc_min,

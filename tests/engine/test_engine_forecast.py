@@ -43,3 +43,23 @@ def test_forecast_tables_identical_in_process_and_on_dask(tmp_path: Path) -> Non
     assert len(a) > 0 and a["fuel_l_per_100km"].notna().any()
     tasks = pd.read_json(dask / ".work" / "tasks.jsonl", lines=True)
     assert tasks.loc[tasks["stage"] == "clean", "worker"].nunique() == 2
+
+
+@pytest.mark.slow
+def test_full_forecast_reads_routes_from_the_work_folder_with_identical_numbers(tmp_path: Path) -> None:
+    # --full simulates every route on its own logs: route tasks read them from the work folder
+    # (two worker processes here) and must give exactly what the in-memory frame gives
+    # (FrameLogs, the library's default); common practice, no source
+    fleet = write_tiny_fleet(tmp_path / "fleet", vehicles=4, days=2)
+    cfg = dataclasses.replace(demo_config(), engine=EngineConfig(kind="processes", workers=2))
+    work = tmp_path / "work"
+    tasks_view = pipeline.forecast_paths([fleet], cfg, full=True, work_dir=work)
+    inputs = pipeline.forecast_inputs([fleet], demo_config())
+    in_memory = pipeline.run_forecast(inputs, demo_config(), full=True)
+    pd.testing.assert_frame_equal(tasks_view.route_forecast, in_memory.route_forecast, check_exact=True)
+    assert (tasks_view.route_forecast["simulated_on"] == in_memory.route_forecast["simulated_on"]).all()
+    assert tasks_view.route_forecast["fuel_l_per_100km"].notna().any()
+    tasks = pd.read_json(work / "tasks.jsonl", lines=True)
+    routes = set(tasks_view.missions["route"])
+    assert set(tasks.loc[tasks["stage"] == "route energy", "key"]) == routes
+    assert set(tasks.loc[tasks["stage"] == "route grade", "key"]) == routes

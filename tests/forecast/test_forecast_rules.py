@@ -50,7 +50,7 @@ def test_mission_mix_annual_km_and_payload_rules() -> None:
     routes, microtrips, weights = _mission_inputs()
     cfg = ForecastConfig(planned_annual_km={"C": 12_000.0}, payload_kg={"A": 500.0}, operating_days_per_year=200.0)
     before = routes.copy()
-    m = mission_table(routes, microtrips, pd.DataFrame(), weights, pd.Series({"T1": "urban", "T2": "stop-go"}), cfg,
+    m = mission_table(routes, microtrips, pd.Series(dtype=float), weights, pd.Series({"T1": "urban", "T2": "stop-go"}), cfg,
                       {"van": 700.0}).set_index("route")
     pd.testing.assert_frame_equal(routes, before)  # input untouched
     assert (m["fleet_operating_days"] == 2).all()  # two distinct dates on which a shift starts
@@ -71,7 +71,7 @@ def test_mission_mix_annual_km_and_payload_rules() -> None:
     assert m.loc["A", "duty_mix"] == "T1 urban 80 %, T2 stop-go 20 %"
     assert m.loc["A", "vehicle_class"] == "van" and m.loc["C", "vehicle_class"] == "rigid_truck"
     # the current spec's payload applies to its class only when nothing closer is given
-    m2 = mission_table(routes, microtrips, pd.DataFrame(), weights, pd.Series(dtype=str), ForecastConfig(),
+    m2 = mission_table(routes, microtrips, pd.Series(dtype=float), weights, pd.Series(dtype=str), ForecastConfig(),
                        {"van": 700.0}).set_index("route")
     assert m2.loc["A", "payload_kg"] == 700.0 and m2.loc["A", "payload_source"] == "current spec default"
 
