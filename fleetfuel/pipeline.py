@@ -85,10 +85,20 @@ def inspect_paths(
         return InspectResult(samples=samples, account=fleet.account, failures=fleet.failures)
 
 
+STAGE_COLUMNS = (
+    schema.VEHICLE_ID, schema.TIME_UTC, schema.SPEED_M_S, schema.LAT_DEG, schema.LON_DEG, schema.ELEVATION_M,
+    schema.GRADE, schema.DISTANCE_M, schema.ENGINE_SPEED_RPM, schema.IS_PARKED, schema.GAP_BREAK, schema.ROUTE,
+    *schema.SEGMENT_ID_COLUMNS,
+)
+"""The clean columns route assignment, cycles and the forecast read (the rest, such as source
+file and row, fuel signals and raw elevation, stay in the work folder: less memory in the main process)."""
+
+
 def _segmented(fleet: PreparedFleet, cfg: RunConfig, routes_file: str | Path | None
                ) -> tuple[pd.DataFrame, pd.DataFrame, pd.DataFrame]:
-    """Samples with routes, the route table and the micro-trip features with routes, of a prepared fleet."""
-    samples, routes = segment.assign_routes(fleet.samples(), fleet.trips if len(fleet.trips) else None,
+    """Samples with routes (:data:`STAGE_COLUMNS`), the route table and the micro-trip features with
+    routes, of a prepared fleet."""
+    samples, routes = segment.assign_routes(fleet.samples(STAGE_COLUMNS), fleet.trips if len(fleet.trips) else None,
                                             cfg.segment, routes_file)
     features = fleet.features
     if len(features):
