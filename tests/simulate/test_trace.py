@@ -111,3 +111,21 @@ def test_payload_changes_the_result() -> None:
     assert laden.payload_kg == s.max_payload_kg
     assert laden.totals.wheel_energy_kwh > 1.5 * empty.totals.wheel_energy_kwh
     assert laden.totals.fuel_kg > empty.totals.fuel_kg
+
+
+@pytest.mark.parametrize("name", ["van_diesel", "van_electric"])
+def test_totals_do_not_depend_on_blas_threads(name: str) -> None:
+    # workers run one BLAS thread, the main process as many as the machine has: a long trace
+    # (12 h at 1 Hz, ramps and cruises) must give the same digits either way (common practice,
+    # no source: sums by numpy's pairwise summation, not a threaded BLAS dot product)
+    from threadpoolctl import threadpool_limits
+
+    t, v = ramp_cruise_stop(60.0 * KMH, 5_000.0, 1.0)
+    reps = int(np.ceil(43_200 / t.size))
+    t_long = np.arange(t.size * reps, dtype=np.float64)
+    v_long = np.tile(v, reps)
+    s = spec(name)
+    free = simulate_trace(t_long, v_long, None, s).totals
+    with threadpool_limits(limits=1):
+        pinned = simulate_trace(t_long, v_long, None, s).totals
+    assert free == pinned
