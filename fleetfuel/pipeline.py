@@ -102,8 +102,7 @@ def _segmented(fleet: PreparedFleet, cfg: RunConfig, routes_file: str | Path | N
                                             cfg.segment, routes_file)
     features = fleet.features
     if len(features):
-        in_trip = samples.loc[samples[schema.TRIP_ID].notna().to_numpy(), [schema.TRIP_ID, schema.ROUTE, schema.ROUTE_SOURCE]]
-        by_trip = in_trip.drop_duplicates(schema.TRIP_ID).set_index(schema.TRIP_ID)
+        by_trip = _by_trip(samples, (schema.ROUTE, schema.ROUTE_SOURCE))
         features = features.assign(**{
             name: features[schema.TRIP_ID].map(by_trip[name]).astype("string") for name in (schema.ROUTE, schema.ROUTE_SOURCE)
         })
@@ -285,11 +284,16 @@ def _inputs_of(fleet: PreparedFleet, paths: Sequence[str | Path], cfg: RunConfig
                           microtrips=features, cycles=built)
 
 
+def _by_trip(samples: pd.DataFrame, columns: Sequence[str]) -> pd.DataFrame:
+    """``columns`` of each trip's first row, indexed by trip id (the rows of a trip share its route)."""
+    in_trip = samples.loc[samples[schema.TRIP_ID].notna().to_numpy(), [schema.TRIP_ID, *columns]]
+    return in_trip.drop_duplicates(schema.TRIP_ID).set_index(schema.TRIP_ID)
+
+
 def trip_routes(samples: pd.DataFrame) -> pd.Series:
-    """Trip id -> route of a segmented frame with routes (the rows of trips carry their route)."""
-    in_trip = samples.loc[samples[schema.TRIP_ID].notna().to_numpy(), [schema.TRIP_ID, schema.ROUTE]]
-    by_trip = in_trip.drop_duplicates(schema.TRIP_ID)
-    return pd.Series(by_trip[schema.ROUTE].astype("string").to_numpy(), index=by_trip[schema.TRIP_ID].astype(str).to_numpy())
+    """Trip id -> route of a segmented frame with routes."""
+    by_trip = _by_trip(samples, (schema.ROUTE,))
+    return pd.Series(by_trip[schema.ROUTE].astype("string").to_numpy(), index=by_trip.index.astype(str))
 
 
 def _write_work(work_dir: Path, result: ForecastResult, microtrips: pd.DataFrame) -> None:

@@ -102,10 +102,10 @@ class WorkFolderLogs:
             ids = read_frames([fleet.work.table("trips", w.key)], (schema.TRIP_ID,))
             if ids is None:
                 continue
-            mine = ids[schema.TRIP_ID].astype(str).map(trip_routes)
-            for route in sorted(set(mine.dropna().astype(str))):
-                keys.setdefault(route, []).append(w.key)
-                trips.setdefault(route, []).extend(ids[schema.TRIP_ID].astype(str)[mine == route])
+            trip_ids = ids[schema.TRIP_ID].astype(str)
+            for route, mine in trip_ids.groupby(trip_ids.map(trip_routes), sort=True):  # trips without a route dropped
+                keys.setdefault(str(route), []).append(w.key)
+                trips.setdefault(str(route), []).extend(mine)
         self._keys = {r: tuple(k) for r, k in keys.items()}
         self._trips = {r: tuple(t) for r, t in trips.items()}
 

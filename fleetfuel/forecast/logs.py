@@ -18,6 +18,7 @@ from typing import Protocol
 
 import pandas as pd
 
+from fleetfuel import schema
 from fleetfuel.forecast.energy import RouteEnergy, ShiftTrace, energy_from_logs, shift_traces
 from fleetfuel.forecast.grade import sustained_grades
 from fleetfuel.simulate import SimConfig, VehicleSpec
@@ -52,7 +53,7 @@ class FrameLogs:
         self._traces: dict[str, list[ShiftTrace]] = {}
 
     def steepest_grades(self, routes: Sequence[str], window_m: float) -> pd.Series:
-        return sustained_grades(self.samples, window_m).reindex(pd.Index(list(routes), name="route"))
+        return sustained_grades(self.samples, window_m).reindex(pd.Index(list(routes), name=schema.ROUTE))
 
     def log_energies(self, cells: Sequence[LogCell], sim_cfg: SimConfig) -> list[RouteEnergy]:
         out = []

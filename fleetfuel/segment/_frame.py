@@ -42,7 +42,7 @@ def ordered(samples: pd.DataFrame, what: str = "samples") -> pd.DataFrame:
 
 
 def is_ordered(samples: pd.DataFrame) -> bool:
-    """True when ``samples`` is sorted by vehicle, then time (ties allowed; missing ids last).
+    """True when ``samples`` is sorted by vehicle, then time (ties allowed).
 
     One vehicle (a partition, the common case) needs only the time check: no string comparisons
     beyond one equality test per row.

@@ -7,9 +7,13 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 import pytest
+from geographiclib.geodesic import Geodesic
 from segment_frames import cycle, frame, join
 
+from fleetfuel import schema, synth
+from fleetfuel.clean import CleanConfig, clean_batch
 from fleetfuel.errors import ConfigError, InputDataError
+from fleetfuel.ingest.base import LogBatch, LogFile, conform, empty_dropped
 from fleetfuel.segment import (
     SegmentConfig,
     features_of_trace,
@@ -176,10 +180,6 @@ def test_unlogged_distance_across_logging_gaps() -> None:
     # miss the outages' distance; the jump from fix to fix gives it back. On a straight road the
     # straight line is the road, so logged + unlogged = the generator's distance (common practice,
     # no source: a lower bound of the road distance in general)
-    from fleetfuel import schema, synth
-    from fleetfuel.clean import CleanConfig, clean_batch
-    from fleetfuel.ingest.base import LogBatch, LogFile, conform, empty_dropped
-
     route = synth.line_route(40_000.0, limit_kmh=80.0, lights_every_m=8_000.0)
     truth = synth.drive(route, "van", seed=9, vehicle_id="V1")
     damaged, injected = synth.add_defects(truth.frame, synth.DefectSpec(gaps_per_day=200.0, gap_s=(120.0, 300.0)), seed=9)
@@ -199,7 +199,6 @@ def test_unlogged_distance_by_hand() -> None:
     # of where the first ended (distance by geographiclib's WGS-84 Inverse, Karney 2013), the third
     # where the second ended (a stop: nothing), the fourth in a new period (nothing charged across
     # a period boundary)
-    from geographiclib.geodesic import Geodesic
 
     trips = pd.DataFrame({
         "vehicle_id": ["V1"] * 4, "period_id": ["p1", "p1", "p1", "p2"],
