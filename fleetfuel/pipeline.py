@@ -18,6 +18,7 @@ import pandas as pd
 from fleetfuel import cycles, schema, segment
 from fleetfuel.clean.vehicle import empty_clean_frame
 from fleetfuel.config import RunConfig
+from fleetfuel.engine.cycle_logs import WorkFolderCycleLogs
 from fleetfuel.engine.executors import Engine, make_engine
 from fleetfuel.engine.stream import PreparedFleet, clean_columns, fleet_consumption, prepare_fleet
 from fleetfuel.ingest.base import FileFailure
@@ -179,9 +180,11 @@ def cycles_paths(
             raise CycleError(f"too little driving to form cycles: no micro-trip in {', '.join(map(str, paths))}")
         samples, routes, features = _segmented(fleet, cfg, routes_file)
         account, failures = fleet.account, fleet.failures
-        built = cycles.build_cycles(samples, features, cycles_cfg, cfg.segment)
+        logs = WorkFolderCycleLogs(fleet, running)
+        built = cycles.build_cycles(logs, features, cycles_cfg, cfg.segment)
         spec_name, unit, model = consumption_model(cycles_cfg.reference_spec, cfg.simulate)
         consumption = fleet_consumption(fleet, running, built.microtrips, cycles_cfg.reference_spec, cfg.simulate)
+        holdout = cycles.holdout_check(logs, built, consumption, model, cycles_cfg, cfg.segment)
     rates = cycles.cycle_rates(built.cycles, model)
     return CyclesResult(
         samples=samples,
@@ -190,7 +193,7 @@ def cycles_paths(
         routes=routes,
         cycles=built,
         fuel_check=cycles.fuel_check(built, consumption, rates, cycles_cfg),
-        holdout=cycles.holdout_check(samples, built, consumption, model, cycles_cfg, cfg.segment),
+        holdout=holdout,
         reference_spec=spec_name,
         unit=unit,
     )
@@ -253,8 +256,8 @@ def forecast_inputs(
     cfg = _with_profile(cfg, profile)
     step = _stage_steps(progress)
     step(0)
-    with prepared(paths, cfg, work_dir, engine) as (fleet, _):
-        return _inputs_of(fleet, paths, cfg, routes_file, step)
+    with prepared(paths, cfg, work_dir, engine) as (fleet, running):
+        return _inputs_of(fleet, running, paths, cfg, routes_file, step)
 
 
 def _stage_steps(progress: Progress | None) -> Callable[[int], None]:
@@ -266,8 +269,8 @@ def _stage_steps(progress: Progress | None) -> Callable[[int], None]:
     return step
 
 
-def _inputs_of(fleet: PreparedFleet, paths: Sequence[str | Path], cfg: RunConfig, routes_file: str | Path | None,
-               step: Callable[[int], None]) -> ForecastInputs:
+def _inputs_of(fleet: PreparedFleet, engine: Engine, paths: Sequence[str | Path], cfg: RunConfig,
+               routes_file: str | Path | None, step: Callable[[int], None]) -> ForecastInputs:
     """:func:`forecast_inputs` of a prepared fleet."""
     from fleetfuel.errors import CycleError, InputDataError
 
@@ -277,7 +280,8 @@ def _inputs_of(fleet: PreparedFleet, paths: Sequence[str | Path], cfg: RunConfig
     samples, routes, features = _segmented(fleet, cfg, routes_file)
     step(2)
     try:
-        built: cycles.CycleSet | None = cycles.build_cycles(samples, features, cfg.cycles, cfg.segment)
+        built: cycles.CycleSet | None = cycles.build_cycles(WorkFolderCycleLogs(fleet, engine), features, cfg.cycles,
+                                                            cfg.segment)
     except CycleError:  # too little driving for duty types: every route is simulated on its own logs
         built = None
     return ForecastInputs(samples=samples, account=fleet.account, failures=fleet.failures, routes=routes,
@@ -392,6 +396,6 @@ def forecast_paths(
     step = _stage_steps(progress)
     step(0)
     with prepared(paths, cfg, work_dir, engine) as (fleet, running):
-        inputs = _inputs_of(fleet, paths, cfg, routes_file, step)
+        inputs = _inputs_of(fleet, running, paths, cfg, routes_file, step)
         logs = WorkFolderLogs(fleet, trip_routes(inputs.samples), running)
         return run_forecast(inputs, cfg, full=full, work_dir=work_dir, progress=progress, logs=logs)

@@ -21,9 +21,24 @@ from fleetfuel.cycles.chains import EXCESS_WEIGHT
 from fleetfuel.cycles.cluster import DutyTypeClusterer, fit_types, predict_types, type_names
 from fleetfuel.cycles.config import CyclesConfig
 from fleetfuel.cycles.labels import label_types
-from fleetfuel.cycles.pieces import PiecePool, build_pool, eligible_microtrips, measured_microtrips
+from fleetfuel.cycles.logs import CycleLogs, FrameLogs
+from fleetfuel.cycles.pieces import (
+    PiecePool,
+    build_pool,
+    eligible_microtrips,
+    measured_microtrips,
+    pool_microtrips,
+    safd_types,
+)
 from fleetfuel.cycles.safd import safd_difference, safd_of_trace, safd_shape
-from fleetfuel.cycles.stats import TARGET_STATS, floors, normalised_errors, with_derived
+from fleetfuel.cycles.stats import (
+    TARGET_STATS,
+    additive_sums,
+    floors,
+    normalised_errors,
+    stats_from_sums,
+    with_derived,
+)
 from fleetfuel.cycles.weights import type_weights
 from fleetfuel.errors import CycleError
 from fleetfuel.segment.config import KMH_M_S, METRES_PER_KM, SECONDS_PER_MINUTE, SegmentConfig
@@ -33,6 +48,11 @@ ACCEPTANCE_COLUMNS: Final = (
     "type", "statistic", "target", "achieved", "relative_error", "floor", "normalised_error", "passed",
 )
 """Columns of :attr:`CycleSet.acceptance` (one row per type and statistic)."""
+ACCEL_STATS: Final = (
+    "accel_share", "cruise_share", "decel_share", "mean_pos_accel_m_s2", "mean_neg_accel_m_s2", "rms_accel_m_s2",
+    "rpa_m_s2",
+)
+"""Statistics that need observable accelerations (NaN otherwise, :mod:`fleetfuel.segment.features`)."""
 COMPOSITION_COLUMNS: Final = (
     "type", "order", "piece_id", schema.MICROTRIP_ID, schema.VEHICLE_ID, "kind", "start_utc", "end_utc",
     "duration_s",
@@ -106,18 +126,23 @@ def _check_enough(microtrips: pd.DataFrame, cfg: CyclesConfig) -> None:
         )
 
 
-def _targets(samples: pd.DataFrame, microtrips: pd.DataFrame, names: list[str], segment_cfg: SegmentConfig) -> pd.DataFrame:
-    """Statistics of each type on its measured micro-trips (all its micro-trips when none is)."""
+def _targets(microtrips: pd.DataFrame, names: list[str]) -> pd.DataFrame:
+    """Statistics of each type on its measured micro-trips (all its micro-trips when none is).
+
+    Sums of the micro-trips' additive sums (:func:`fleetfuel.cycles.stats.additive_sums`): the
+    statistics of all the type's samples together, from the feature table alone.
+    """
     rows = microtrips.loc[microtrips["type"].notna().to_numpy()]
-    chosen = rows.loc[rows["measured"].to_numpy()]
-    groups = pd.Series(chosen["type"].astype(str).to_numpy(), index=chosen[schema.MICROTRIP_ID].astype(str).to_numpy(), name="type")
-    stats = segment.group_features(samples, groups, segment_cfg) if len(groups) else pd.DataFrame()
-    fallback = set(names) - set(stats.index)
-    if fallback:
-        rest = rows.loc[rows["type"].isin(fallback).to_numpy()]
-        extra = pd.Series(rest["type"].astype(str).to_numpy(), index=rest[schema.MICROTRIP_ID].astype(str).to_numpy(), name="type")
-        stats = pd.concat([stats, segment.group_features(samples, extra, segment_cfg)])
-    return with_derived(stats.reindex(names))
+    types = rows["type"].astype(str)
+    has_measured = set(types[rows["measured"].to_numpy(dtype=bool)])
+    use = rows["measured"].to_numpy(dtype=bool) | ~types.isin(has_measured).to_numpy()
+    sums = pd.DataFrame(additive_sums(rows.loc[use])).groupby(types[use].to_numpy(), sort=True).sum()
+    stats = pd.DataFrame(stats_from_sums(sums.to_numpy(dtype=np.float64)), index=sums.index, columns=list(TARGET_STATS))
+    # as on the samples: a group holding a row whose acceleration is not observable (accel_share
+    # NaN, low-rate logs) has no acceleration statistics
+    unobserved = rows.loc[use, "accel_share"].isna().groupby(types[use].to_numpy(), sort=True).any()
+    stats.loc[unobserved.reindex(stats.index).to_numpy(dtype=bool), list(ACCEL_STATS)] = np.nan
+    return stats.reindex(names)
 
 
 def _acceptance(type_name: str, target: np.ndarray, achieved: np.ndarray, cfg: CyclesConfig) -> pd.DataFrame:
@@ -191,7 +216,7 @@ def _type_table(
 
 
 def build_cycles(
-    samples: pd.DataFrame,
+    samples: pd.DataFrame | CycleLogs,
     microtrips: pd.DataFrame,
     cfg: CyclesConfig | None = None,
     segment_cfg: SegmentConfig | None = None,
@@ -200,9 +225,12 @@ def build_cycles(
 
     Parameters
     ----------
-    samples : DataFrame
+    samples : DataFrame or CycleLogs
         Segmented clean frame (:func:`fleetfuel.segment.split_microtrips`, optionally with routes
-        from :func:`fleetfuel.segment.assign_routes`), sorted by vehicle and time.
+        from :func:`fleetfuel.segment.assign_routes`), sorted by vehicle and time; or logs that
+        answer for it where they are (:class:`fleetfuel.cycles.logs.CycleLogs`, e.g. the work
+        folder): only each type's SAFD and the pool's micro-trips (at most ``cfg.pool_max_s`` of
+        driving per type) are read.
     microtrips : DataFrame
         Its micro-trip feature table (:func:`fleetfuel.segment.microtrip_features`); a subset of
         micro-trips (e.g. all days but one) builds the cycles of that subset.
@@ -224,10 +252,11 @@ def build_cycles(
     # One BLAS/OpenMP thread: the products here are small, so thread start-up dominates (measured
     # 30x slower on two cores), and one thread keeps every sum in one order (same bytes each run).
     with threadpool_limits(limits=1):
-        return _build(samples, microtrips, cfg, segment_cfg)
+        return _build(FrameLogs(samples) if isinstance(samples, pd.DataFrame) else samples, microtrips, cfg,
+                      segment_cfg)
 
 
-def _build(samples: pd.DataFrame, microtrips: pd.DataFrame, cfg: CyclesConfig, segment_cfg: SegmentConfig) -> CycleSet:
+def _build(logs: CycleLogs, microtrips: pd.DataFrame, cfg: CyclesConfig, segment_cfg: SegmentConfig) -> CycleSet:
     table = microtrips.sort_values(schema.MICROTRIP_ID, kind="stable").reset_index(drop=True)
     _check_enough(table, cfg)
     try:
@@ -236,8 +265,8 @@ def _build(samples: pd.DataFrame, microtrips: pd.DataFrame, cfg: CyclesConfig, s
         raise CycleError(f"too little driving to form cycles: {exc}") from None
     names = type_names(model.n_types_)
     table["type"] = predict_types(model, columns, table)
-    measured, step_s = measured_microtrips(table, samples, segment_cfg.stop_speed_m_s)
-    eligible, _ = eligible_microtrips(table, samples, segment_cfg.stop_speed_m_s)
+    measured, step_s = measured_microtrips(table)
+    eligible, _ = eligible_microtrips(table)
     table["measured"] = measured.to_numpy() & table["type"].notna().to_numpy()
     table["eligible"] = eligible.to_numpy() & table["measured"].to_numpy()
     if not table["eligible"].any():
@@ -245,9 +274,12 @@ def _build(samples: pd.DataFrame, microtrips: pd.DataFrame, cfg: CyclesConfig, s
             "too little driving to form cycles: no micro-trip is logged at a uniform time step with "
             f"observable accelerations (found {len(table)} micro-trips, all from low-rate or irregular logs)"
         )
-    targets = _targets(samples, table, names, segment_cfg)
+    targets = _targets(table, names)
     labels = label_types(targets)
-    pool = build_pool(samples, table, step_s, cfg, segment_cfg)
+    type_safd = logs.type_safd(safd_types(table), cfg, segment_cfg)
+    in_pool = table.loc[pool_microtrips(table, cfg)]
+    samples = logs.microtrip_rows(in_pool[schema.MICROTRIP_ID].astype(str).tolist())
+    pool = build_pool(samples, in_pool, step_s, type_safd, cfg, segment_cfg)
     cycles, selections, safd_type, safd_cycle, safd_diff, accept, parts = {}, {}, {}, {}, {}, [], []
     for number, name in enumerate(names):
         target = targets.loc[name, list(TARGET_STATS)].to_numpy(dtype=np.float64)

@@ -14,6 +14,7 @@ from typing import Final
 
 from fleetfuel.errors import ConfigError
 from fleetfuel.segment.config import KMH_M_S, SECONDS_PER_MINUTE
+from fleetfuel.units import SECONDS_PER_HOUR
 
 CLUSTER_WEIGHTS: Final = ("distance", "time", "none")
 """What each micro-trip weighs in the clustering: its distance, its duration, or one each."""
@@ -107,6 +108,9 @@ class CyclesConfig:
         windows and a tail at points of equal speed (:mod:`fleetfuel.cycles.pieces`). [1]
     window_s : float
         Shortest window a long micro-trip is cut into. [s]
+    pool_max_s : float
+        Most driving of one type its pieces are cut from; a type with more gets a seeded draw of
+        its micro-trips up to this (bounds the main process's memory on big fleets). [s]
     splice_tolerance_m_s : float
         Cut points of long micro-trips lie within this of a splice level. [m/s]
     splice_levels : int
@@ -163,6 +167,9 @@ class CyclesConfig:
     # A minute: long enough to hold a speed change, short enough to give the search many pieces
     # (measured on the synthetic fleet: 60 s halves the worst statistic error of 120 s; no source).
     window_s: float = 1.0 * SECONDS_PER_MINUTE
+    # 20 h is 60 cycles' worth of driving per type, about 80 MB of samples at 1 Hz in the main
+    # process (our choice: more pieces beyond it did not change the sample fleet's cycles)
+    pool_max_s: float = 20.0 * SECONDS_PER_HOUR
     # A 0.2 m/s step at a splice is within 1 Hz GNSS speed noise (common practice, no source).
     splice_tolerance_m_s: float = 0.2
     splice_levels: int = 4  # our choice: quintile boundaries of the moving speeds

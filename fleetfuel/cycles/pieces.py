@@ -134,37 +134,15 @@ def row_motion(samples: pd.DataFrame, segment_cfg: SegmentConfig) -> tuple[Float
     return t, v, np.where(outside, np.nan, kin.accel_m_s2), np.where(outside, 0.0, kin.weight_s)
 
 
-def _step_and_ends(
-    microtrips: pd.DataFrame, samples: pd.DataFrame, stop_speed_m_s: float
-) -> tuple[FloatArray, npt.NDArray[np.bool_]]:
-    """Largest time step [s] (NaN: one row) and "first and last row at rest" of each micro-trip."""
-    in_mt = samples[schema.MICROTRIP_ID].notna().to_numpy()
-    ids_of_rows = samples[schema.MICROTRIP_ID].to_numpy(dtype=object)[in_mt]
-    t = ((samples[schema.TIME_UTC] - pd.Timestamp(0, tz="UTC")) / pd.Timedelta(seconds=1)).to_numpy(np.float64)[in_mt]
-    v = samples[schema.SPEED_M_S].to_numpy(dtype=np.float64, na_value=np.nan)[in_mt]
-    same = np.r_[False, ids_of_rows[1:] == ids_of_rows[:-1]]
-    gaps = np.where(same, np.r_[np.nan, np.diff(t)], np.nan)
-    ends = ~same | ~np.r_[same[1:], False]  # first or last row of a micro-trip
-    moving_end = ends & ~(np.nan_to_num(v, nan=0.0) < stop_speed_m_s)
-    per_mt = pd.DataFrame({"step": gaps, "moving_end": moving_end}).groupby(ids_of_rows).agg(
-        step=("step", "max"), moving_end=("moving_end", "any")
-    )
-    ids = microtrips[schema.MICROTRIP_ID]
-    max_step = ids.map(per_mt["step"]).to_numpy(dtype=np.float64, na_value=np.nan)
-    at_rest = ~ids.map(per_mt["moving_end"]).fillna(True).to_numpy(dtype=bool)
-    return max_step, at_rest
-
-
-def measured_microtrips(
-    microtrips: pd.DataFrame, samples: pd.DataFrame, stop_speed_m_s: float
-) -> tuple[pd.Series, float]:
+def measured_microtrips(microtrips: pd.DataFrame) -> tuple[pd.Series, float]:
     """Which micro-trips are driving measured at the cycles' time step, and that step.
 
     A micro-trip is *measured* when its accelerations are observable (:data:`OBSERVED_STATS`
-    known) and every time step equals the cycle step, wherever it starts and ends: a log may
-    start or break off while moving (a trip cut at a gap on the motorway), and that driving still
-    belongs to its type. Measured micro-trips make the types' targets and SAFD and both sides of
-    the fuel check; cycles are cut from the :func:`eligible_microtrips` among them (and from the
+    known) and every time step equals the cycle step (its ``max_step_s``,
+    :data:`fleetfuel.segment.LOGGING_COLUMNS`), wherever it starts and ends: a log may start or
+    break off while moving (a trip cut at a gap on the motorway), and that driving still belongs
+    to its type. Measured micro-trips make the types' targets and SAFD and both sides of the fuel
+    check; cycles are cut from the :func:`eligible_microtrips` among them (and from the
     splice-level pieces of long measured ones, :func:`build_pool`).
 
     Returns
@@ -174,7 +152,7 @@ def measured_microtrips(
     step_s : float
         The time step covering the most driving time (NaN when there is none). [s]
     """
-    max_step, _ = _step_and_ends(microtrips, samples, stop_speed_m_s)
+    max_step = microtrips["max_step_s"].to_numpy(dtype=np.float64, na_value=np.nan)
     known = microtrips[list(OBSERVED_STATS)].notna().all(axis=1).to_numpy() & np.isfinite(max_step)
     if not known.any():
         return pd.Series(False, index=microtrips.index), float("nan")
@@ -185,9 +163,7 @@ def measured_microtrips(
     return pd.Series(ok, index=microtrips.index), step_s
 
 
-def eligible_microtrips(
-    microtrips: pd.DataFrame, samples: pd.DataFrame, stop_speed_m_s: float
-) -> tuple[pd.Series, float]:
+def eligible_microtrips(microtrips: pd.DataFrame) -> tuple[pd.Series, float]:
     """Which micro-trips cycles may be cut from, and the cycles' time step.
 
     Returns
@@ -195,13 +171,12 @@ def eligible_microtrips(
     eligible : Series of bool
         Indexed like ``microtrips``: measured (:func:`measured_microtrips`: accelerations
         observable, every time step equal to the cycle step) and first and last sample at
-        rest (below ``stop_speed_m_s`` [m/s]), so that pieces join at rest.
+        rest (``ends_at_rest``), so that pieces join at rest.
     step_s : float
         The time step covering the most driving time (NaN when there is none). [s]
     """
-    measured, step_s = measured_microtrips(microtrips, samples, stop_speed_m_s)
-    _, at_rest = _step_and_ends(microtrips, samples, stop_speed_m_s)
-    return measured & at_rest, step_s
+    measured, step_s = measured_microtrips(microtrips)
+    return measured & microtrips["ends_at_rest"].to_numpy(dtype=bool), step_s
 
 
 def _levels(types: npt.NDArray[np.object_], v: FloatArray, n: int, tolerance_m_s: float) -> dict[str, FloatArray]:
@@ -285,33 +260,64 @@ def _cut_pieces(
     return meta, features.reindex(meta["piece_id"]).reset_index(drop=True), hist, levels
 
 
-def _type_safd(
-    samples: pd.DataFrame, microtrips: pd.DataFrame, motion: tuple[FloatArray, FloatArray, FloatArray, FloatArray],
-    cfg: CyclesConfig,
+def type_safd_counts(
+    samples: pd.DataFrame, types: pd.Series, cfg: CyclesConfig, segment_cfg: SegmentConfig
 ) -> dict[str, FloatArray]:
-    """Time in each SAFD cell of each type's measured driving (``measured``, else ``eligible``). [s]"""
-    flag = "measured" if "measured" in microtrips.columns else "eligible"
-    rows = microtrips.loc[microtrips[flag].to_numpy(dtype=bool) & microtrips["type"].notna().to_numpy()]
-    row_type = samples[schema.MICROTRIP_ID].astype("string").map(
-        pd.Series(rows["type"].astype(str).to_numpy(), index=rows[schema.MICROTRIP_ID].astype(str).to_numpy())
-    )
+    """Time in each SAFD cell of each type's micro-trips (``types``: microtrip_id -> type) in
+    ``samples`` (a segmented frame, sorted; kinematics trip by trip). [s]
+
+    Additive: the counts of a fleet are the sums of its partitions' counts.
+    """
+    row_type = samples[schema.MICROTRIP_ID].astype("string").map(types)
     pos = np.flatnonzero(row_type.notna().to_numpy())
     if not pos.size:
         return {}
     code, names = _codes(row_type.iloc[pos])
-    _, v, a, w = motion
+    _, v, a, w = row_motion(samples, segment_cfg)
     counts = safd_counts(v[pos], a[pos], w[pos], code, len(names), cfg)
     return {str(name): counts[k] for k, name in sorted(enumerate(names), key=lambda kv: str(kv[1]))}
+
+
+def safd_types(microtrips: pd.DataFrame) -> pd.Series:
+    """microtrip_id -> type of the micro-trips a type's SAFD counts (``measured``, else ``eligible``)."""
+    flag = "measured" if "measured" in microtrips.columns else "eligible"
+    rows = microtrips.loc[microtrips[flag].to_numpy(dtype=bool) & microtrips["type"].notna().to_numpy()]
+    return pd.Series(rows["type"].astype(str).to_numpy(), index=rows[schema.MICROTRIP_ID].astype(str).to_numpy())
+
+
+def pool_microtrips(microtrips: pd.DataFrame, cfg: CyclesConfig) -> npt.NDArray[np.bool_]:
+    """Which micro-trips the pool is cut from: the eligible ones and the long measured ones.
+
+    A type with more than ``cfg.pool_max_s`` of them gets a seeded draw (``cfg.seed``, in
+    micro-trip id order, so the draw does not depend on the engine): micro-trips in drawn order
+    until their duration reaches ``cfg.pool_max_s``.
+    """
+    duration = microtrips["duration_s"].to_numpy(dtype=np.float64, na_value=0.0)
+    long_mt = duration > cfg.max_piece_share * cfg.target_duration_s
+    measured = microtrips["measured"].to_numpy(dtype=bool) if "measured" in microtrips.columns else False
+    chosen = microtrips["eligible"].to_numpy(dtype=bool) | (measured & long_mt)
+    types = microtrips["type"].astype("string").to_numpy(dtype=object, na_value=None)
+    ids = microtrips[schema.MICROTRIP_ID].astype(str).to_numpy()
+    rng = np.random.default_rng(cfg.seed)
+    for name in sorted({t for t in types[chosen] if t is not None}):
+        members = np.flatnonzero(chosen & (types == name))
+        if duration[members].sum() <= cfg.pool_max_s:
+            continue
+        drawn = members[np.argsort(ids[members], kind="stable")][rng.permutation(members.size)]
+        keep = np.cumsum(duration[drawn]) - duration[drawn] < cfg.pool_max_s
+        chosen[drawn[~keep]] = False
+    return chosen
 
 
 def build_pool(
     samples: pd.DataFrame,
     microtrips: pd.DataFrame,
     step_s: float,
+    type_safd: dict[str, FloatArray],
     cfg: CyclesConfig,
     segment_cfg: SegmentConfig,
 ) -> PiecePool:
-    """Cut the eligible micro-trips into pieces and compute each piece's sums and SAFD.
+    """Cut the pool's micro-trips into pieces and compute each piece's sums and SAFD.
 
     Long measured micro-trips that start or end moving (not eligible) give their pieces that join
     at splice levels too: their windows, and the tail (head) of one that only starts (ends)
@@ -320,12 +326,15 @@ def build_pool(
     Parameters
     ----------
     samples : DataFrame
-        Segmented clean frame (with ``microtrip_id`` and ``trip_id``), sorted by vehicle and time.
+        Segmented rows (with ``microtrip_id`` and ``trip_id``) holding the pool's micro-trips and
+        the row before and after each within its trip (:func:`fleetfuel.cycles.logs.microtrip_rows`),
+        sorted by vehicle and time.
     microtrips : DataFrame
-        Micro-trip feature table with ``type`` and bool columns ``eligible`` and (optional)
-        ``measured``.
+        The pool's rows of the micro-trip feature table (:func:`pool_microtrips`), with ``type``.
     step_s : float
         Time step of the eligible micro-trips (:func:`eligible_microtrips`). [s]
+    type_safd : dict of str to ndarray
+        Time in each SAFD cell of each type's measured driving (:func:`type_safd_counts`). [s]
     cfg, segment_cfg : CyclesConfig, SegmentConfig
 
     Returns
@@ -333,10 +342,7 @@ def build_pool(
     PiecePool
     """
     longest_whole_s = cfg.max_piece_share * cfg.target_duration_s
-    long_mt = microtrips["duration_s"].to_numpy(dtype=np.float64, na_value=0.0) > longest_whole_s
-    measured = microtrips["measured"].to_numpy(dtype=bool) if "measured" in microtrips.columns else False
-    cut_too = microtrips["eligible"].to_numpy(dtype=bool) | (measured & long_mt)
-    chosen = microtrips.loc[cut_too].reset_index(drop=True)
+    chosen = microtrips.reset_index(drop=True)
     ids = chosen[schema.MICROTRIP_ID].astype(str)
     motion = row_motion(samples, segment_cfg)
     t, v, a, w = motion
@@ -346,7 +352,6 @@ def build_pool(
     row_type = chosen["type"].astype(str).to_numpy(dtype=object)[at][mt]
     mt_safd = safd_counts(v[pos], a[pos], w[pos], mt, len(mt_ids), cfg)
     mt_type = chosen["type"].astype(str).to_numpy(dtype=object)[at]
-    type_safd = _type_safd(samples, microtrips, motion, cfg)
     is_long = (chosen["duration_s"].to_numpy() > longest_whole_s)[at]
     first = pd.Series(pos).groupby(mt).min().to_numpy()
     last = pd.Series(pos).groupby(mt).max().to_numpy()

@@ -36,6 +36,7 @@ import pandas as pd
 from fleetfuel import schema
 from fleetfuel.cycles.build import CycleSet, build_cycles
 from fleetfuel.cycles.config import CyclesConfig
+from fleetfuel.cycles.logs import CycleLogs
 from fleetfuel.errors import CycleError
 from fleetfuel.segment.config import METRES_PER_KM, SegmentConfig
 
@@ -180,7 +181,7 @@ def microtrip_days(microtrips: pd.DataFrame) -> pd.Series:
 
 
 def holdout_check(
-    samples: pd.DataFrame,
+    samples: pd.DataFrame | CycleLogs,
     cycleset: CycleSet,
     consumption: pd.Series,
     fuel_model: FuelModel,

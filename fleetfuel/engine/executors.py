@@ -207,16 +207,17 @@ class DaskEngine(Engine):
         else:
             import dask
 
-            # tasks keep no data on a worker (they write Parquet and return facts), so spilling and
+            # Tasks keep no data on a worker (they write Parquet and return facts), so spilling and
             # pausing have nothing to act on: a worker whose heap stays above the pause fraction
             # would wait forever. The limit stays a hard cap: the nanny restarts a worker past
-            # 95 % of it and its task runs again elsewhere (``retries``).
-            with dask.config.set({"distributed.worker.memory.target": False, "distributed.worker.memory.spill": False,
-                                  "distributed.worker.memory.pause": False}):
-                self._cluster = LocalCluster(
-                    n_workers=workers, threads_per_worker=1, processes=True, dashboard_address=None,
-                    host="127.0.0.1", memory_limit=memory_limit_bytes or "auto", silence_logs=40,
-                )
+            # 95 % of it and its task runs again elsewhere (``retries``). The settings go with the
+            # workers' spec, so a worker started in place of a dead one has them too.
+            quiet = {"distributed": {"worker": {"memory": {"target": False, "spill": False, "pause": False}}}}
+            self._cluster = LocalCluster(
+                n_workers=workers, threads_per_worker=1, processes=True, dashboard_address=None,
+                host="127.0.0.1", memory_limit=memory_limit_bytes or "auto", silence_logs=40,
+                config=dask.config.merge(dask.config.config, quiet),
+            )
             self._client = Client(self._cluster)
         from fleetfuel.engine.dask_worker import PinThreads
 

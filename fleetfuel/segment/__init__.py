@@ -15,7 +15,13 @@ from __future__ import annotations
 
 from fleetfuel.segment.config import SegmentConfig
 from fleetfuel.segment.discovery import discover_routes
-from fleetfuel.segment.features import FEATURE_COLUMNS, features_of_trace, group_features, microtrip_features
+from fleetfuel.segment.features import (
+    FEATURE_COLUMNS,
+    LOGGING_COLUMNS,
+    features_of_trace,
+    group_features,
+    microtrip_features,
+)
 from fleetfuel.segment.microtrips import split_microtrips
 from fleetfuel.segment.routes import ROUTE_TABLE_COLUMNS, assign_routes
 from fleetfuel.segment.routesfile import load_routes_file
@@ -23,6 +29,7 @@ from fleetfuel.segment.trips import operating_periods, period_table, split_trips
 
 __all__ = [
     "FEATURE_COLUMNS",
+    "LOGGING_COLUMNS",
     "ROUTE_TABLE_COLUMNS",
     "SegmentConfig",
     "assign_routes",

@@ -93,6 +93,11 @@ FEATURE_COLUMNS: Final = (
     "climb_m_per_km",
 )
 """Columns of every feature table, in order (definitions in the module docstring)."""
+LOGGING_COLUMNS: Final = ("max_step_s", "ends_at_rest")
+"""How a micro-trip was logged, after :data:`FEATURE_COLUMNS` in :func:`microtrip_features`: its
+largest time step [s] (NaN for a single row) and whether its first and last rows are at rest
+(below ``cfg.stop_speed_m_s``). The cycles stage reads them to pick the micro-trips logged at its
+time step (:func:`fleetfuel.cycles.pieces.measured_microtrips`) without the samples."""
 
 
 def _ratio(num: FloatArray, den: FloatArray) -> FloatArray:
@@ -252,6 +257,22 @@ def _grouped(
     return pd.Index(uniques), values
 
 
+def _logging(rows: pd.DataFrame, stop_speed_m_s: float) -> pd.DataFrame:
+    """:data:`LOGGING_COLUMNS` of each micro-trip of sorted ``rows``, indexed by ``microtrip_id``."""
+    in_mt = rows[schema.MICROTRIP_ID].notna().to_numpy()
+    ids = rows[schema.MICROTRIP_ID].to_numpy(dtype=object)[in_mt]
+    t = seconds(rows[schema.TIME_UTC])[in_mt]
+    v = np.nan_to_num(rows[schema.SPEED_M_S].to_numpy(dtype=np.float64, na_value=np.nan)[in_mt], nan=0.0)
+    same = np.r_[False, ids[1:] == ids[:-1]]
+    steps = np.where(same, np.r_[np.nan, np.diff(t)], np.nan)
+    ends = ~same | ~np.r_[same[1:], False]  # first or last row of a micro-trip
+    moving_end = ends & (v >= stop_speed_m_s)
+    per_mt = pd.DataFrame({"max_step_s": steps, "moving_end": moving_end}).groupby(ids).agg(
+        max_step_s=("max_step_s", "max"), moving_end=("moving_end", "any"))
+    return pd.DataFrame({"max_step_s": per_mt["max_step_s"].astype(np.float64),
+                         "ends_at_rest": ~per_mt["moving_end"].astype(bool)})
+
+
 def microtrip_features(samples: pd.DataFrame, cfg: SegmentConfig | None = None) -> pd.DataFrame:
     """One row per micro-trip: its ids, start and end, and :data:`FEATURE_COLUMNS`.
 
@@ -268,8 +289,8 @@ def microtrip_features(samples: pd.DataFrame, cfg: SegmentConfig | None = None) 
     DataFrame
         Columns ``vehicle_id``, ``period_id``, ``trip_id``, ``microtrip_id``, ``start_utc``,
         ``end_utc``, ``route`` and ``route_source`` (when the samples carry them), then
-        :data:`FEATURE_COLUMNS` (units in the names; definitions in the module docstring).
-        Sorted by vehicle and time. The input is not modified.
+        :data:`FEATURE_COLUMNS` (units in the names; definitions in the module docstring), then
+        :data:`LOGGING_COLUMNS`. Sorted by vehicle and time. The input is not modified.
     """
     cfg = cfg or SegmentConfig()
     rows = _segmented(samples, cfg)
@@ -288,7 +309,9 @@ def microtrip_features(samples: pd.DataFrame, cfg: SegmentConfig | None = None) 
     for extra in (schema.ROUTE, schema.ROUTE_SOURCE):
         if extra in rows.columns:
             head[extra] = grouped[extra].first().reindex(index)
-    table = pd.concat([head, pd.DataFrame(values, index=index)], axis=1)
+    logging = _logging(rows, cfg.stop_speed_m_s).reindex(index)
+    logging["ends_at_rest"] = logging["ends_at_rest"].fillna(False).astype(bool)
+    table = pd.concat([head, pd.DataFrame(values, index=index), logging], axis=1)
     table.index.name = schema.MICROTRIP_ID
     table = table.reset_index()
     first_cols = [schema.VEHICLE_ID, schema.PERIOD_ID, schema.TRIP_ID, schema.MICROTRIP_ID]

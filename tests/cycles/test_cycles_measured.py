@@ -13,7 +13,15 @@ from cycle_frames import frame, join
 
 from fleetfuel import schema, segment
 from fleetfuel.cycles import CyclesConfig, fuel_check, microtrip_consumption
-from fleetfuel.cycles.pieces import REST, build_pool, eligible_microtrips, measured_microtrips
+from fleetfuel.cycles.pieces import (
+    REST,
+    build_pool,
+    eligible_microtrips,
+    measured_microtrips,
+    pool_microtrips,
+    safd_types,
+    type_safd_counts,
+)
 from fleetfuel.segment.config import SegmentConfig
 
 # Known truth by construction (our fixtures): vehicle A's log starts at 20 m/s on a cruise with a
@@ -35,9 +43,8 @@ def fleet() -> tuple[pd.DataFrame, pd.DataFrame, float]:
     )
     samples = segment.split_microtrips(raw)
     table = segment.microtrip_features(samples).sort_values(schema.MICROTRIP_ID).reset_index(drop=True)
-    stop = SegmentConfig().stop_speed_m_s
-    measured, step = measured_microtrips(table, samples, stop)
-    eligible, _ = eligible_microtrips(table, samples, stop)
+    measured, step = measured_microtrips(table)
+    eligible, _ = eligible_microtrips(table)
     table["type"] = pd.array(["T1"] * len(table), dtype="string")
     table["measured"] = measured.to_numpy()
     table["eligible"] = eligible.to_numpy()
@@ -57,7 +64,8 @@ def test_a_run_cut_while_moving_is_measured_but_not_eligible(fleet) -> None:
 def test_pool_keeps_the_windows_and_tail_of_a_run_cut_while_moving(fleet) -> None:
     samples, table, step = fleet
     cfg = CyclesConfig(target_duration_s=600.0)  # runs over 300 s are cut into windows
-    pool = build_pool(samples, table, step, cfg, SegmentConfig())
+    type_safd = type_safd_counts(samples, safd_types(table), cfg, SegmentConfig())
+    pool = build_pool(samples, table.loc[pool_microtrips(table, cfg)], step, type_safd, cfg, SegmentConfig())
     pieces = pool.table
     cut = pieces.loc[pieces[schema.MICROTRIP_ID] == table[schema.MICROTRIP_ID].iloc[0]]
     assert "head" not in set(cut["kind"])  # its head would start moving

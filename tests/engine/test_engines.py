@@ -188,6 +188,11 @@ def test_dask_job_survives_a_worker_killed_after_the_first_partition(
         assert not runner.is_alive(), "the job did not finish within 240 s after the kill"
         assert "error" not in outcome, outcome.get("error")
         _same(local, outcome["tables"])  # type: ignore[arg-type]
+        # the restarted worker has the engine's memory settings too: never paused (a paused
+        # worker holding no data would wait forever), never spilling
+        settings = engine.client.run(lambda dask_worker: (dask_worker.memory_manager.memory_pause_fraction,
+                                                          dask_worker.memory_manager.memory_spill_fraction))
+        assert set(settings.values()) == {(False, False)}
     finally:
         engine.close()
 

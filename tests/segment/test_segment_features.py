@@ -10,6 +10,7 @@ from segment_frames import KMH, cycle, frame
 from fleetfuel.errors import InputDataError
 from fleetfuel.segment import (
     FEATURE_COLUMNS,
+    LOGGING_COLUMNS,
     SegmentConfig,
     features_of_trace,
     group_features,
@@ -154,7 +155,10 @@ def test_microtrips_add_up_to_the_trace() -> None:
     moving = np.flatnonzero(v >= SegmentConfig().stop_speed_m_s)
     # trip: departure row (first moving - 1) to arrival row (last moving + 1)
     assert table["duration_s"].sum() == pytest.approx(moving[-1] + 1 - (moving[0] - 1), rel=1e-12)
-    assert list(table.columns[-len(FEATURE_COLUMNS) :]) == list(FEATURE_COLUMNS)
+    tail = list(FEATURE_COLUMNS) + list(LOGGING_COLUMNS)
+    assert list(table.columns[-len(tail) :]) == tail
+    # logged at 1 Hz throughout; a micro-trip runs stop to stop (common practice, no source)
+    assert (table["max_step_s"] == 1.0).all() and table["ends_at_rest"].all()
     assert table["microtrip_id"].is_unique
 
 

@@ -1,0 +1,111 @@
+"""The cycles stage's logs read from the work folder: :class:`WorkFolderCycleLogs`.
+
+:class:`fleetfuel.cycles.logs.CycleLogs` asks for two things. Each type's SAFD over all its
+measured driving is one task per partition (:func:`partition_type_safd`: its rows read, its
+kinematics trip by trip, a few small arrays back); the main process adds the partitions' counts in
+fleet order, so the sum does not depend on the engine. The pool's rows (at most
+``CyclesConfig.pool_max_s`` of driving per type) are read back in the main process, partition by
+partition, only the trips holding the pool's micro-trips (rows filtered by trip id in pyarrow).
+The main process never holds the fleet's samples.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Collection
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+import pyarrow.compute as pc
+import pyarrow.parquet as pq
+
+from fleetfuel import schema
+from fleetfuel.cycles.config import CyclesConfig
+from fleetfuel.cycles.logs import POOL_COLUMNS, microtrip_rows
+from fleetfuel.cycles.pieces import FloatArray, type_safd_counts
+from fleetfuel.engine.executors import Engine
+from fleetfuel.engine.stream import PreparedFleet
+from fleetfuel.engine.workdir import WorkFolder, read_frames, typed
+from fleetfuel.segment.config import SegmentConfig
+
+SAFD_COLUMNS = (schema.TIME_UTC, schema.SPEED_M_S, schema.TRIP_ID, schema.MICROTRIP_ID)
+"""The columns a SAFD task reads (kinematics trip by trip, micro-trip of each row)."""
+
+
+@dataclass(frozen=True, slots=True)
+class SafdJob:
+    """Count the SAFD of micro-trips ``ids`` (types ``types``, same order) of partition ``key``."""
+
+    key: str
+    work: str
+    ids: tuple[str, ...]
+    types: tuple[str, ...]
+    cycles: CyclesConfig
+    segment: SegmentConfig
+
+
+def _read(path: Path, columns: Collection[str], trips: Collection[str] | None = None) -> pd.DataFrame | None:
+    if not path.is_file():
+        return None
+    wanted = None if trips is None else pc.field(schema.TRIP_ID).isin(pa.array(sorted(trips), type=pa.string()))
+    table = pq.read_table(path, columns=list(columns), filters=wanted)
+    return typed(table.to_pandas()) if table.num_rows else None
+
+
+def partition_type_safd(job: SafdJob) -> dict[str, FloatArray]:
+    """:func:`fleetfuel.cycles.pieces.type_safd_counts` of one partition's listed micro-trips. [s]"""
+    samples = _read(WorkFolder(Path(job.work)).table("samples", job.key), SAFD_COLUMNS)
+    if samples is None:
+        return {}
+    types = pd.Series(list(job.types), index=list(job.ids), dtype="string")
+    return type_safd_counts(samples, types, job.cycles, job.segment)
+
+
+class WorkFolderCycleLogs:
+    """:class:`fleetfuel.cycles.logs.CycleLogs` answered from the work folder (see the module docstring).
+
+    Parameters
+    ----------
+    fleet : PreparedFleet
+    engine : Engine
+        Where the SAFD tasks run; their records go to the fleet's task log.
+    """
+
+    def __init__(self, fleet: PreparedFleet, engine: Engine) -> None:
+        self.fleet, self.engine = fleet, engine
+        self._ids: list[tuple[str, pd.DataFrame]] = []
+        for w in fleet.partitions:  # fleet order
+            ids = read_frames([fleet.work.table("features", w.key)], (schema.MICROTRIP_ID, schema.TRIP_ID))
+            if ids is not None:
+                self._ids.append((w.key, ids.astype({schema.MICROTRIP_ID: str, schema.TRIP_ID: str})))
+
+    def type_safd(self, types: pd.Series, cfg: CyclesConfig, segment_cfg: SegmentConfig) -> dict[str, FloatArray]:
+        jobs = []
+        for key, ids in self._ids:
+            mine = ids[schema.MICROTRIP_ID].map(types).dropna()
+            if len(mine):
+                jobs.append(SafdJob(key, str(self.fleet.work.root), tuple(ids.loc[mine.index, schema.MICROTRIP_ID]),
+                                    tuple(mine.astype(str)), cfg, segment_cfg))
+        parts = self.engine.map(partition_type_safd, jobs, [j.key for j in jobs], "type safd")
+        self.fleet.work.log_tasks(self.engine.records)
+        self.engine.records.clear()
+        total: dict[str, FloatArray] = {}
+        for part in parts:  # fleet order: the same sums whatever the engine
+            for name, counts in part.items():
+                total[name] = total[name] + counts if name in total else np.array(counts, dtype=np.float64)
+        return dict(sorted(total.items()))
+
+    def microtrip_rows(self, microtrip_ids: Collection[str]) -> pd.DataFrame:
+        wanted = set(microtrip_ids)
+        parts = []
+        for key, ids in self._ids:
+            mine = ids.loc[ids[schema.MICROTRIP_ID].isin(wanted)]
+            if len(mine):
+                rows = _read(self.fleet.work.table("samples", key), POOL_COLUMNS, set(mine[schema.TRIP_ID]))
+                if rows is not None:
+                    parts.append(microtrip_rows(rows, mine[schema.MICROTRIP_ID]))
+        if not parts:
+            return pd.DataFrame({c: pd.Series([], dtype="string") for c in POOL_COLUMNS})
+        return pd.concat(parts, ignore_index=True)
