@@ -20,7 +20,13 @@ from fleetfuel.clean.vehicle import empty_clean_frame
 from fleetfuel.config import RunConfig
 from fleetfuel.engine.cycle_logs import WorkFolderCycleLogs
 from fleetfuel.engine.executors import Engine, make_engine
-from fleetfuel.engine.stream import PreparedFleet, clean_columns, fleet_consumption, prepare_fleet
+from fleetfuel.engine.stream import (
+    PreparedFleet,
+    clean_columns,
+    fleet_consumption,
+    fleet_routes,
+    prepare_fleet,
+)
 from fleetfuel.ingest.base import FileFailure
 from fleetfuel.report import quality
 from fleetfuel.simulate.reference import consumption_model
@@ -95,22 +101,28 @@ STAGE_COLUMNS = (
 file and row, fuel signals and raw elevation, stay in the work folder: less memory in the main process)."""
 
 
-def _segmented(fleet: PreparedFleet, cfg: RunConfig, routes_file: str | Path | None
+ROUTE_COLUMNS = (schema.ROUTE, schema.ROUTE_SOURCE)
+"""What route assignment adds to trips, samples and micro-trips."""
+
+
+def _segmented(fleet: PreparedFleet, engine: Engine, cfg: RunConfig, routes_file: str | Path | None
                ) -> tuple[pd.DataFrame, pd.DataFrame, pd.DataFrame]:
-    """Samples with routes (:data:`STAGE_COLUMNS`), the route table and the micro-trip features with
-    routes, of a prepared fleet."""
-    samples, routes = segment.assign_routes(fleet.samples(STAGE_COLUMNS), fleet.trips if len(fleet.trips) else None,
-                                            cfg.segment, routes_file)
+    """Trips with routes, the route table and the micro-trip features with routes, of a prepared
+    fleet (routes from the trip tables and per-partition path tasks: no samples in this process)."""
+    if fleet.trips.empty:  # no driving: no trip to route
+        trips = pd.DataFrame({name: pd.Series([], dtype="string") for name in (schema.TRIP_ID, *ROUTE_COLUMNS)})
+        return trips, pd.DataFrame(columns=list(segment.ROUTE_TABLE_COLUMNS)), fleet.features
+    trips, routes = fleet_routes(fleet, engine, cfg.segment, routes_file)
     features = fleet.features
     if len(features):
-        by_trip = _by_trip(samples, (schema.ROUTE, schema.ROUTE_SOURCE))
+        by_trip = trips.set_index(trips[schema.TRIP_ID].astype(str))
         features = features.assign(**{
-            name: features[schema.TRIP_ID].map(by_trip[name]).astype("string") for name in (schema.ROUTE, schema.ROUTE_SOURCE)
+            name: features[schema.TRIP_ID].astype(str).map(by_trip[name]).astype("string") for name in ROUTE_COLUMNS
         })
         head = [schema.VEHICLE_ID, schema.PERIOD_ID, schema.TRIP_ID, schema.MICROTRIP_ID, "start_utc", "end_utc",
-                schema.ROUTE, schema.ROUTE_SOURCE]
+                *ROUTE_COLUMNS]
         features = features[head + [c for c in features.columns if c not in head]]
-    return samples, routes, features
+    return trips, routes, features
 
 
 @dataclass(frozen=True, slots=True)
@@ -119,8 +131,6 @@ class CyclesResult:
 
     Attributes
     ----------
-    samples : DataFrame
-        The segmented clean frame, with routes.
     account : DataFrame
         Per-file row account (as ``inspect``).
     failures : tuple of FileFailure
@@ -138,7 +148,6 @@ class CyclesResult:
         Unit of the consumption figures (``L``, ``kg`` or ``kWh``).
     """
 
-    samples: pd.DataFrame
     account: pd.DataFrame
     failures: tuple[FileFailure, ...]
     routes: pd.DataFrame
@@ -178,7 +187,7 @@ def cycles_paths(
             raise CycleError(f"too little driving to form cycles: no usable samples in {', '.join(map(str, paths))}{why}")
         if fleet.features.empty:
             raise CycleError(f"too little driving to form cycles: no micro-trip in {', '.join(map(str, paths))}")
-        samples, routes, features = _segmented(fleet, cfg, routes_file)
+        _, routes, features = _segmented(fleet, running, cfg, routes_file)
         account, failures = fleet.account, fleet.failures
         logs = WorkFolderCycleLogs(fleet, running)
         built = cycles.build_cycles(logs, features, cycles_cfg, cfg.segment)
@@ -187,7 +196,6 @@ def cycles_paths(
         holdout = cycles.holdout_check(logs, built, consumption, model, cycles_cfg, cfg.segment)
     rates = cycles.cycle_rates(built.cycles, model)
     return CyclesResult(
-        samples=samples,
         account=account,
         failures=failures,
         routes=routes,
@@ -215,8 +223,9 @@ class ForecastInputs:
 
     Attributes
     ----------
-    samples : DataFrame
-        Segmented clean frame with routes.
+    samples : DataFrame or None
+        Segmented clean frame with routes (:func:`forecast_inputs`); None where the forecast reads
+        each route's logs from the work folder instead (:func:`forecast_paths`).
     account : DataFrame
         Per-file row account.
     failures : tuple of FileFailure
@@ -228,7 +237,7 @@ class ForecastInputs:
         Duty types and cycles; None when there was too little driving to form them.
     """
 
-    samples: pd.DataFrame
+    samples: pd.DataFrame | None
     account: pd.DataFrame
     failures: tuple[FileFailure, ...]
     routes: pd.DataFrame
@@ -257,7 +266,9 @@ def forecast_inputs(
     step = _stage_steps(progress)
     step(0)
     with prepared(paths, cfg, work_dir, engine) as (fleet, running):
-        return _inputs_of(fleet, running, paths, cfg, routes_file, step)
+        inputs, trips = _inputs_of(fleet, running, paths, cfg, routes_file, step)
+        samples = segment.with_routes(fleet.samples(STAGE_COLUMNS), trips)
+        return dataclasses.replace(inputs, samples=samples)
 
 
 def _stage_steps(progress: Progress | None) -> Callable[[int], None]:
@@ -270,34 +281,28 @@ def _stage_steps(progress: Progress | None) -> Callable[[int], None]:
 
 
 def _inputs_of(fleet: PreparedFleet, engine: Engine, paths: Sequence[str | Path], cfg: RunConfig,
-               routes_file: str | Path | None, step: Callable[[int], None]) -> ForecastInputs:
-    """:func:`forecast_inputs` of a prepared fleet."""
+               routes_file: str | Path | None, step: Callable[[int], None]) -> tuple[ForecastInputs, pd.DataFrame]:
+    """:func:`forecast_inputs` of a prepared fleet, without samples, and the trips with routes."""
     from fleetfuel.errors import CycleError, InputDataError
 
     if not fleet.clean_rows:
         raise InputDataError(f"no usable samples in {', '.join(map(str, paths))}: every file failed or was empty")
     step(1)
-    samples, routes, features = _segmented(fleet, cfg, routes_file)
+    trips, routes, features = _segmented(fleet, engine, cfg, routes_file)
     step(2)
     try:
         built: cycles.CycleSet | None = cycles.build_cycles(WorkFolderCycleLogs(fleet, engine), features, cfg.cycles,
                                                             cfg.segment)
     except CycleError:  # too little driving for duty types: every route is simulated on its own logs
         built = None
-    return ForecastInputs(samples=samples, account=fleet.account, failures=fleet.failures, routes=routes,
-                          microtrips=features, cycles=built)
+    inputs = ForecastInputs(samples=None, account=fleet.account, failures=fleet.failures, routes=routes,
+                            microtrips=features, cycles=built)
+    return inputs, trips
 
 
-def _by_trip(samples: pd.DataFrame, columns: Sequence[str]) -> pd.DataFrame:
-    """``columns`` of each trip's first row, indexed by trip id (the rows of a trip share its route)."""
-    in_trip = samples.loc[samples[schema.TRIP_ID].notna().to_numpy(), [schema.TRIP_ID, *columns]]
-    return in_trip.drop_duplicates(schema.TRIP_ID).set_index(schema.TRIP_ID)
-
-
-def trip_routes(samples: pd.DataFrame) -> pd.Series:
-    """Trip id -> route of a segmented frame with routes."""
-    by_trip = _by_trip(samples, (schema.ROUTE,))
-    return pd.Series(by_trip[schema.ROUTE].astype("string").to_numpy(), index=by_trip.index.astype(str))
+def trip_routes(trips: pd.DataFrame) -> pd.Series:
+    """Trip id -> route of a trip table with routes."""
+    return pd.Series(trips[schema.ROUTE].astype("string").to_numpy(), index=trips[schema.TRIP_ID].astype(str).to_numpy())
 
 
 def _write_work(work_dir: Path, result: ForecastResult, microtrips: pd.DataFrame) -> None:
@@ -396,6 +401,6 @@ def forecast_paths(
     step = _stage_steps(progress)
     step(0)
     with prepared(paths, cfg, work_dir, engine) as (fleet, running):
-        inputs = _inputs_of(fleet, running, paths, cfg, routes_file, step)
-        logs = WorkFolderLogs(fleet, trip_routes(inputs.samples), running)
+        inputs, trips = _inputs_of(fleet, running, paths, cfg, routes_file, step)
+        logs = WorkFolderLogs(fleet, trip_routes(trips), running)
         return run_forecast(inputs, cfg, full=full, work_dir=work_dir, progress=progress, logs=logs)

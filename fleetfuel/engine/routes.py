@@ -1,21 +1,24 @@
-"""The forecast's route logs read from the work folder, one task per route: :class:`WorkFolderLogs`.
+"""The forecast's route logs read from the work folder, partition by partition: :class:`WorkFolderLogs`.
 
 :class:`fleetfuel.forecast.logs.RouteLogs` asks for each route's steepest sustained grade and for
-the energy of specs simulated on the route's own logs. Here each route is one task
-(:func:`route_grade`, :func:`route_energies`): it reads the route's trips from the partitions that
-hold them (a few columns, rows filtered by trip id in pyarrow), computes, and returns a number or a
-few small records. The main process never holds the route's samples, and routes run in parallel
-on the engine. A route's answer depends on its own rows only, in the order the partitions give
-them (vehicle, then time), so it equals the in-memory answer of
-:class:`fleetfuel.forecast.logs.FrameLogs`.
+the energy of specs simulated on the route's own logs. Both are computed where the rows are: one
+task per partition (:func:`partition_grades`, :func:`partition_runs`) reads its trips of the
+routes asked for (a few columns, rows filtered by trip id in pyarrow), and returns a grade per
+route or one row per shift and cell. The main process combines them: the largest grade, the shifts'
+runs summed in period order (:func:`fleetfuel.forecast.energy.energy_of_runs`). A task holds one
+partition, never a whole route, and the answers equal the in-memory ones of
+:class:`fleetfuel.forecast.logs.FrameLogs` (a trip's grade and a shift's run depend on their own
+rows only).
 """
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from pathlib import Path
+from typing import TypeVar
 
+import numpy as np
 import pandas as pd
 import pyarrow as pa
 import pyarrow.compute as pc
@@ -25,7 +28,7 @@ from fleetfuel import schema
 from fleetfuel.engine.executors import Engine
 from fleetfuel.engine.stream import PreparedFleet
 from fleetfuel.engine.workdir import WorkFolder, read_frames, typed
-from fleetfuel.forecast.energy import RouteEnergy, energy_from_logs, shift_traces
+from fleetfuel.forecast.energy import RUN_COLUMNS, RouteEnergy, energy_of_runs, shift_runs, shift_traces
 from fleetfuel.forecast.grade import sustained_grades
 from fleetfuel.forecast.logs import LogCell
 from fleetfuel.simulate import SimConfig, VehicleSpec
@@ -33,52 +36,49 @@ from fleetfuel.simulate import SimConfig, VehicleSpec
 ROUTE_COLUMNS = (schema.PERIOD_ID, schema.TRIP_ID, schema.TIME_UTC, schema.SPEED_M_S, schema.GRADE,
                  schema.ELEVATION_M, schema.DISTANCE_M)
 """The columns a route task reads (what grades and shift traces use)."""
+R = TypeVar("R")
 
 
 @dataclass(frozen=True, slots=True)
-class RouteJob:
-    """One route's trips in the work folder ``work``: the partitions ``keys`` holding them, their ids.
+class PartitionRoutesJob:
+    """Partition ``key`` of the work folder ``work``: its trips of each route asked for.
 
-    ``window_m`` is the grade window [m] (:func:`route_grade`); ``cells`` the (spec, payload [kg])
-    pairs to simulate and ``sim`` their settings (:func:`route_energies`).
+    ``routes`` pairs each route with its trip ids here. ``window_m`` is the grade window [m]
+    (:func:`partition_grades`); ``cells`` the (cell number, route, spec, payload [kg]) to simulate
+    and ``sim`` their settings (:func:`partition_runs`).
     """
 
-    route: str
+    key: str
     work: str
-    keys: tuple[str, ...]
-    trips: tuple[str, ...]
+    routes: tuple[tuple[str, tuple[str, ...]], ...]
     window_m: float = 0.0
-    cells: tuple[tuple[VehicleSpec, float], ...] = ()
+    cells: tuple[tuple[int, str, VehicleSpec, float], ...] = ()
     sim: SimConfig | None = None
 
 
-def route_samples(job: RouteJob) -> pd.DataFrame:
-    """The route's trip rows (:data:`ROUTE_COLUMNS` and ``route``), partitions in the job's order."""
-    folder = WorkFolder(Path(job.work))
-    wanted = pa.array(job.trips, type=pa.string())
-    paths = [p for p in (folder.table("samples", key) for key in job.keys) if p.is_file()]
-    parts = [pq.read_table(p, columns=list(ROUTE_COLUMNS), filters=pc.field(schema.TRIP_ID).isin(wanted)) for p in paths]
-    if parts:
-        frame = typed(pa.concat_tables(parts, promote_options="default").to_pandas())
-    else:  # a route without rows (a routes-file route never driven): no grade, no shift
-        frame = pd.DataFrame({name: pd.Series([], dtype="float64") for name in ROUTE_COLUMNS}).astype(
-            {schema.PERIOD_ID: "string", schema.TRIP_ID: "string"})
-        frame[schema.TIME_UTC] = pd.to_datetime(frame[schema.TIME_UTC], utc=True)
-    frame[schema.ROUTE] = pd.Series(job.route, index=frame.index, dtype="string")
+def partition_samples(job: PartitionRoutesJob) -> pd.DataFrame:
+    """The partition's rows of the job's trips (:data:`ROUTE_COLUMNS`), with their ``route``."""
+    route_of = {trip: route for route, trips in job.routes for trip in trips}
+    wanted = pa.array(sorted(route_of), type=pa.string())
+    table = pq.read_table(WorkFolder(Path(job.work)).table("samples", job.key), columns=list(ROUTE_COLUMNS),
+                          filters=pc.field(schema.TRIP_ID).isin(wanted))
+    frame = typed(table.to_pandas())
+    frame[schema.ROUTE] = frame[schema.TRIP_ID].astype(str).map(route_of).astype("string")
     return frame
 
 
-def route_grade(job: RouteJob) -> float:
-    """Steepest sustained grade of the job's route (:func:`fleetfuel.forecast.grade.sustained_grades`). [1]"""
-    grades = sustained_grades(route_samples(job), job.window_m)
-    return float(grades.get(job.route, float("nan")))
+def partition_grades(job: PartitionRoutesJob) -> dict[str, float]:
+    """Steepest sustained grade of each route on this partition's trips (NaN: none long enough). [1]"""
+    grades = sustained_grades(partition_samples(job), job.window_m)
+    return {str(route): float(value) for route, value in grades.items()}
 
 
-def route_energies(job: RouteJob) -> list[RouteEnergy]:
-    """:func:`fleetfuel.forecast.energy.energy_from_logs` of each of the job's cells on the route's shifts."""
-    traces = shift_traces(route_samples(job), job.route)
+def partition_runs(job: PartitionRoutesJob) -> list[tuple[int, pd.DataFrame]]:
+    """:func:`fleetfuel.forecast.energy.shift_runs` of each of the job's cells on this partition's shifts."""
+    samples = partition_samples(job)
     sim = job.sim or SimConfig()
-    return [energy_from_logs(traces, spec, payload, sim) for spec, payload in job.cells]
+    traces = {route: shift_traces(samples, route) for route in {cell[1] for cell in job.cells}}
+    return [(number, shift_runs(traces[route], spec, payload, sim)) for number, route, spec, payload in job.cells]
 
 
 class WorkFolderLogs:
@@ -91,48 +91,54 @@ class WorkFolderLogs:
     trip_routes : Series
         Trip id -> route (the segment stage's assignment).
     engine : Engine
-        Where the route tasks run; their records go to the fleet's task log.
+        Where the tasks run; their records go to the fleet's task log.
     """
 
     def __init__(self, fleet: PreparedFleet, trip_routes: pd.Series, engine: Engine) -> None:
         self.fleet, self.engine = fleet, engine
-        keys: dict[str, list[str]] = {}
-        trips: dict[str, list[str]] = {}
+        self._parts: list[tuple[str, dict[str, tuple[str, ...]]]] = []
         for w in fleet.partitions:  # fleet order: vehicles sorted, windows in time order
             ids = read_frames([fleet.work.table("trips", w.key)], (schema.TRIP_ID,))
             if ids is None:
                 continue
             trip_ids = ids[schema.TRIP_ID].astype(str)
-            for route, mine in trip_ids.groupby(trip_ids.map(trip_routes), sort=True):  # trips without a route dropped
-                keys.setdefault(str(route), []).append(w.key)
-                trips.setdefault(str(route), []).extend(mine)
-        self._keys = {r: tuple(k) for r, k in keys.items()}
-        self._trips = {r: tuple(t) for r, t in trips.items()}
+            by_route = {str(route): tuple(mine) for route, mine in trip_ids.groupby(trip_ids.map(trip_routes), sort=True)}
+            if by_route:  # trips without a route dropped
+                self._parts.append((w.key, by_route))
 
-    def _job(self, route: str, **extra: object) -> RouteJob:
-        return RouteJob(route, str(self.fleet.work.root), self._keys.get(route, ()), self._trips.get(route, ()),
-                        **extra)  # type: ignore[arg-type]
+    def _jobs(self, routes: set[str], **extra: object) -> list[PartitionRoutesJob]:
+        jobs = []
+        for key, by_route in self._parts:
+            mine = tuple((r, t) for r, t in by_route.items() if r in routes)
+            if mine:
+                jobs.append(PartitionRoutesJob(key, str(self.fleet.work.root), mine, **extra))  # type: ignore[arg-type]
+        return jobs
 
-    def _map(self, fn: object, jobs: list[RouteJob], stage: str) -> list:
-        out = self.engine.map(fn, jobs, [j.route for j in jobs], stage)  # type: ignore[arg-type]
+    def _map(self, fn: Callable[[PartitionRoutesJob], R], jobs: list[PartitionRoutesJob], stage: str) -> list[R]:
+        out = self.engine.map(fn, jobs, [j.key for j in jobs], stage)
         self.fleet.work.log_tasks(self.engine.records)
         self.engine.records.clear()
         return out
 
     def steepest_grades(self, routes: Sequence[str], window_m: float) -> pd.Series:
-        jobs = [self._job(r, window_m=window_m) for r in routes]
-        values = self._map(route_grade, jobs, "route grade")
-        return pd.Series(values, index=pd.Index(list(routes), name=schema.ROUTE), dtype="float64", name="steepest_grade")
+        best = dict.fromkeys(routes, float("nan"))
+        for grades in self._map(partition_grades, self._jobs(set(routes), window_m=window_m), "route grade"):
+            for route, value in grades.items():
+                best[route] = float(np.fmax(best[route], value))  # the largest of the partitions' values
+        return pd.Series(list(best.values()), index=pd.Index(list(routes), name=schema.ROUTE), dtype="float64",
+                         name="steepest_grade")
 
     def log_energies(self, cells: Sequence[LogCell], sim_cfg: SimConfig) -> list[RouteEnergy]:
-        by_route: dict[str, list[int]] = {}
-        for n, cell in enumerate(cells):
-            by_route.setdefault(cell.route, []).append(n)
-        routes = sorted(by_route)
-        jobs = [self._job(r, cells=tuple((cells[n].spec, cells[n].payload_kg) for n in by_route[r]), sim=sim_cfg)
-                for r in routes]
-        out: list[RouteEnergy | None] = [None] * len(cells)
-        for route, energies in zip(routes, self._map(route_energies, jobs, "route energy"), strict=True):
-            for n, energy in zip(by_route[route], energies, strict=True):
-                out[n] = energy
-        return [e for e in out if e is not None]
+        jobs = []
+        for key, by_route in self._parts:
+            mine = tuple((n, c.route, c.spec, c.payload_kg) for n, c in enumerate(cells) if c.route in by_route)
+            if mine:
+                routes = tuple((r, by_route[r]) for r in sorted({c[1] for c in mine}))
+                jobs.append(PartitionRoutesJob(key, str(self.fleet.work.root), routes, cells=mine, sim=sim_cfg))
+        runs: list[list[pd.DataFrame]] = [[] for _ in cells]
+        for part in self._map(partition_runs, jobs, "route energy"):
+            for number, frame in part:
+                runs[number].append(frame)
+        empty = pd.DataFrame(columns=[*RUN_COLUMNS, schema.PERIOD_ID])
+        return [energy_of_runs(pd.concat(parts, ignore_index=True) if parts else empty, cell.spec)
+                for parts, cell in zip(runs, cells, strict=True)]

@@ -25,11 +25,13 @@ from fleetfuel.engine.executors import Engine
 from fleetfuel.engine.tasks import (
     CleanJob,
     ConsumptionJob,
+    PathsJob,
     PlanJob,
     ReadJob,
     Window,
     clean_partition,
     partition_consumption,
+    partition_path_cells,
     plan_vehicle,
     read_file,
 )
@@ -210,3 +212,38 @@ def fleet_consumption(fleet: PreparedFleet, engine: Engine, microtrips: pd.DataF
     found = [p for p in parts if len(p)]
     out = pd.concat(found) if found else pd.Series(dtype="float64")
     return out.reindex(sorted(wanted), fill_value=0.0)
+
+
+def fleet_routes(fleet: PreparedFleet, engine: Engine, segment_cfg: Any, routes_file: Any = None
+                 ) -> tuple[pd.DataFrame, pd.DataFrame]:
+    """Routes of the fleet's trips and the route table (:func:`fleetfuel.segment.assign_routes`'s
+    rules), from the trip tables and the path cells of each partition's journeys (one task each).
+
+    Returns
+    -------
+    trips : DataFrame
+        The trip table with ``route`` and ``route_source``.
+    route_table : DataFrame
+        :data:`fleetfuel.segment.ROUTE_TABLE_COLUMNS`.
+    """
+    from fleetfuel.segment import discovery, routes
+
+    rules = routes.load_rules(routes_file)
+    trips = fleet.trips
+    given, _ = routes.given_routes(trips, rules)
+    open_trips = trips.loc[given.isna().to_numpy()]
+    origin = discovery.discovery_origin(open_trips, segment_cfg)
+    wanted = set(open_trips[schema.TRIP_ID].astype(str))
+    jobs = []
+    for w in fleet.partitions:
+        ids = read_frames([fleet.work.table("trips", w.key)], (schema.TRIP_ID,))
+        mine = () if ids is None else tuple(i for i in ids[schema.TRIP_ID].astype(str) if i in wanted)
+        if mine:
+            jobs.append(PathsJob(w.key, str(fleet.work.root), mine, origin, segment_cfg))
+    parts = engine.map(partition_path_cells, jobs, [j.key for j in jobs], "route paths")
+    fleet.work.log_tasks(engine.records)
+    engine.records.clear()
+    found = [p for p in parts if len(p)]
+    cells = pd.concat(found, ignore_index=True) if found else pd.DataFrame(columns=list(discovery.CELL_COLUMNS))
+    routed, ends = routes.trip_routes(trips, None, segment_cfg, rules, cells=cells)
+    return routed, routes.route_table(routed, ends, rules)

@@ -12,7 +12,10 @@ and returns a few facts. Nothing large travels between the driver and the worker
     one window: clean (:func:`fleetfuel.clean.clean_vehicle`), segment into periods, trips and
     micro-trips, micro-trip features and trip table;
 ``partition_consumption``
-    one window: a reference spec simulated over its measured micro-trips (the fuel check).
+    one window: a reference spec simulated over its measured micro-trips (the fuel check);
+``partition_path_cells``
+    one window: the path cells of its journeys left to route discovery
+    (:func:`fleetfuel.segment.discovery.path_cells`).
 """
 
 from __future__ import annotations
@@ -37,6 +40,7 @@ from fleetfuel.ingest.base import empty_raw_frame
 from fleetfuel.ingest.config import IngestConfig
 from fleetfuel.ingest.dispatch import read_path
 from fleetfuel.segment.config import SegmentConfig
+from fleetfuel.segment.discovery import path_cells
 from fleetfuel.simulate.config import SimConfig
 from fleetfuel.simulate.reference import consumption_model
 
@@ -218,3 +222,26 @@ def partition_consumption(job: ConsumptionJob) -> pd.Series:
 def _model(spec: str, sim: SimConfig) -> Any:
     """The consumption model of ``spec``, loaded once per worker process (not once per partition)."""
     return consumption_model(spec, sim)[2]
+
+
+@dataclass(frozen=True, slots=True)
+class PathsJob:
+    """Path cells of the trips ``trips`` of partition ``key``, on the fleet's plane ``origin`` [rad]."""
+
+    key: str
+    work: str
+    trips: tuple[str, ...]
+    origin: tuple[float, float]
+    segment: SegmentConfig
+
+
+PATH_COLUMNS = (schema.PERIOD_ID, schema.TRIP_ID, schema.LAT_DEG, schema.LON_DEG)
+"""The columns a path-cell task reads."""
+
+
+def partition_path_cells(job: PathsJob) -> pd.DataFrame:
+    """:func:`fleetfuel.segment.discovery.path_cells` of one partition (a few rows per journey and km)."""
+    path = WorkFolder(Path(job.work)).table("samples", job.key)
+    wanted = pc.field(schema.TRIP_ID).isin(pa.array(list(job.trips), type=pa.string()))
+    samples = typed(pq.read_table(path, columns=list(PATH_COLUMNS), filters=wanted).to_pandas())
+    return path_cells(samples, job.trips, job.origin, job.segment)

@@ -179,9 +179,11 @@ def shift_traces(samples: pd.DataFrame, route: str) -> list[ShiftTrace]:
     keep = (samples[schema.ROUTE].astype("string") == route).fillna(False).to_numpy() & samples[schema.TRIP_ID].notna().to_numpy()
     rows = samples.loc[keep, [schema.PERIOD_ID, schema.TRIP_ID, schema.TIME_UTC, schema.SPEED_M_S, schema.GRADE, schema.ELEVATION_M]]
     rows = rows.sort_values([schema.PERIOD_ID, schema.TIME_UTC], kind="stable")
-    t = (rows[schema.TIME_UTC] - rows[schema.TIME_UTC].iloc[0]).dt.total_seconds().to_numpy() if len(rows) else np.zeros(0)
-    out: list[ShiftTrace] = []
     codes, periods = pd.factorize(rows[schema.PERIOD_ID])
+    # seconds from each shift's own first row: a shift's trace never depends on the route's other shifts
+    first_time = rows[schema.TIME_UTC].groupby(codes).transform("min") if len(rows) else rows[schema.TIME_UTC]
+    t = (rows[schema.TIME_UTC] - first_time).dt.total_seconds().to_numpy() if len(rows) else np.zeros(0)
+    out: list[ShiftTrace] = []
     trip_codes, _ = pd.factorize(rows[schema.TRIP_ID])
     bounds = np.flatnonzero(np.diff(codes)) + 1
     for idx in np.split(np.arange(len(rows)), bounds):
@@ -206,14 +208,19 @@ def shift_traces(samples: pd.DataFrame, route: str) -> list[ShiftTrace]:
     return out
 
 
-def energy_from_logs(traces: Sequence[ShiftTrace], spec: VehicleSpec, payload_kg: float, cfg: SimConfig) -> RouteEnergy:
-    """Route intensities from simulating every shift on its own logs (see the module docstring)."""
+def shift_runs(traces: Sequence[ShiftTrace], spec: VehicleSpec, payload_kg: float, cfg: SimConfig) -> pd.DataFrame:
+    """:data:`RUN_COLUMNS` and ``period_id`` of ``spec`` simulated on each shift (one row each)."""
     rows = []
     for trace in traces:
         run = simulate_trace(trace.time_s, trace.speed_m_s, trace.grade, spec, payload_kg=payload_kg, cfg=cfg,
                              elevation_m=trace.elevation_m)
         rows.append({**_totals_row(spec, run, cfg, deepest=True), schema.PERIOD_ID: trace.period_id})
-    runs = pd.DataFrame(rows, columns=[*RUN_COLUMNS, schema.PERIOD_ID])
+    return pd.DataFrame(rows, columns=[*RUN_COLUMNS, schema.PERIOD_ID])
+
+
+def energy_of_runs(runs: pd.DataFrame, spec: VehicleSpec) -> RouteEnergy:
+    """Route intensities from its shifts' runs (:func:`shift_runs`, any order: summed by period id)."""
+    runs = runs.sort_values(schema.PERIOD_ID, kind="stable").reset_index(drop=True)
     km = float(runs["distance_km"].sum())
 
     def per(col: str) -> float:
@@ -230,3 +237,8 @@ def energy_from_logs(traces: Sequence[ShiftTrace], spec: VehicleSpec, payload_kg
         shortfall_share=float(runs["shortfall_s"].sum() / duration) if duration > 0 else 0.0,
         worst_shift_kwh=worst, worst_shift_period=period, simulated_on="logs", coverage_share=1.0, simulated_km=km,
     )
+
+
+def energy_from_logs(traces: Sequence[ShiftTrace], spec: VehicleSpec, payload_kg: float, cfg: SimConfig) -> RouteEnergy:
+    """Route intensities from simulating every shift on its own logs (see the module docstring)."""
+    return energy_of_runs(shift_runs(traces, spec, payload_kg, cfg), spec)

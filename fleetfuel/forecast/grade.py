@@ -8,8 +8,9 @@ route's *steepest sustained grade* is the largest value over every point of ever
 route whose window ends inside the same trip: climbs only (direction of travel), so a descent
 does not count. Trips shorter than the window, and routes without elevation, give NaN.
 
-Vectorised: the trips are laid end to end on one distance axis with a gap longer than the window
-between them; one ``searchsorted`` finds each window's end and one ``interp`` its elevation.
+Each trip on its own distance axis: one ``searchsorted`` finds each window's end and one
+``interp`` its elevation; a route's value is the largest of its trips', so it is the same whether
+the route's trips are read at once or partition by partition.
 """
 
 from __future__ import annotations
@@ -59,18 +60,28 @@ def sustained_grades(samples: pd.DataFrame, window_m: float) -> pd.Series:
 
 
 def _steepest(trip_ids: np.ndarray, distance_m: np.ndarray, elevation_m: np.ndarray, window_m: float) -> float:
-    """Steepest grade over ``window_m`` of road within one trip, of one route's rows (time order). [1]"""
+    """Steepest grade over ``window_m`` of road within one trip, of one route's rows (time order). [1]
+
+    Each trip is computed on its own distance axis, so a route's value is the largest of its
+    trips' values whichever other trips are read with them (a route's trips read partition by
+    partition give the same number as all at once).
+    """
     codes, _ = pd.factorize(trip_ids)
     order = np.argsort(codes, kind="stable")  # rows stay in time order within a trip
-    codes = codes[order]
-    distance = distance_m[order]
-    elevation = elevation_m[order]
-    distance = distance - distance.min()
-    spacing = distance.max() + 2 * window_m
-    axis = np.maximum.accumulate(distance + codes * spacing)  # trips end to end, a gap apart; never backwards
+    bounds = np.flatnonzero(np.diff(codes[order])) + 1
+    best = float("nan")
+    for idx in np.split(order, bounds):
+        best = float(np.fmax(best, _trip_steepest(distance_m[idx], elevation_m[idx], window_m)))
+    return best
+
+
+def _trip_steepest(distance_m: np.ndarray, elevation_m: np.ndarray, window_m: float) -> float:
+    """Steepest grade over ``window_m`` of road of one trip's rows (time order); NaN if shorter. [1]"""
+    axis = np.maximum.accumulate(distance_m - distance_m.min())  # never backwards
     end = axis + window_m
     j = np.minimum(np.searchsorted(axis, end), axis.size - 1)
-    inside = (axis[j] >= end) & (codes[j] == codes)
-    rise = np.interp(end, axis, elevation) - elevation
-    grade = np.where(inside, rise / window_m, np.nan)
-    return float(np.nanmax(grade)) if np.isfinite(grade).any() else float("nan")
+    inside = axis[j] >= end
+    if not inside.any():
+        return float("nan")
+    rise = np.interp(end[inside], axis, elevation_m) - elevation_m[inside]
+    return float(np.max(rise / window_m))

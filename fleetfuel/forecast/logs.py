@@ -5,9 +5,10 @@ grade (:func:`fleetfuel.forecast.grade.sustained_grades`) and, for routes simula
 logs (``--full``, or routes shorter than their cycles), the energy of each competing spec over the
 route's shifts (:func:`fleetfuel.forecast.energy.energy_from_logs`). :class:`RouteLogs` asks for
 both route by route, so a source may answer from a frame in memory (:class:`FrameLogs`, the
-library default) or from the work folder, one task per route on any engine
-(:class:`fleetfuel.engine.routes.WorkFolderLogs`). Each answer depends on the route's own rows
-only, so both give the same numbers.
+library default) or from the work folder, partition by partition on any engine
+(:class:`fleetfuel.engine.routes.WorkFolderLogs`). A route's grade is the largest of its trips'
+and its energy the sum of its shifts' runs, each depending on its own rows only, so both give the
+same numbers.
 """
 
 from __future__ import annotations

@@ -23,7 +23,7 @@ from fleetfuel.segment.features import (
     microtrip_features,
 )
 from fleetfuel.segment.microtrips import split_microtrips
-from fleetfuel.segment.routes import ROUTE_TABLE_COLUMNS, assign_routes
+from fleetfuel.segment.routes import ROUTE_TABLE_COLUMNS, assign_routes, with_routes
 from fleetfuel.segment.routesfile import load_routes_file
 from fleetfuel.segment.trips import operating_periods, period_table, split_trips, trip_table
 
@@ -33,6 +33,7 @@ __all__ = [
     "ROUTE_TABLE_COLUMNS",
     "SegmentConfig",
     "assign_routes",
+    "with_routes",
     "discover_routes",
     "features_of_trace",
     "group_features",

@@ -39,7 +39,7 @@ from fleetfuel import schema
 from fleetfuel.constants import WGS84_MEAN_RADIUS_M
 from fleetfuel.segment._frame import FloatArray, IntArray, float_column
 from fleetfuel.segment.config import SegmentConfig
-from fleetfuel.segment.paths import overlap_clusters, path_tokens
+from fleetfuel.segment.paths import journey_cells, overlap_clusters, plane_origin, token_matrix
 
 DISCOVERED_COLUMNS = (
     schema.ROUTE,
@@ -105,8 +105,45 @@ def _journeys(trips: pd.DataFrame, unit: str) -> pd.DataFrame:
     return table.loc[usable, keep].reset_index(drop=True)
 
 
+CELL_COLUMNS = ("journey", "cell_x", "cell_y", "sector")
+"""Columns of a path-cell table (:func:`path_cells`): journey key and token."""
+
+
+def journey_key(cfg: SegmentConfig) -> str:
+    """The id column that names a journey: ``trip_id``, or ``period_id`` (``cfg.route_unit``)."""
+    return schema.TRIP_ID if cfg.route_unit == "trip" else schema.PERIOD_ID
+
+
+def discovery_origin(trips: pd.DataFrame, cfg: SegmentConfig) -> tuple[float, float]:
+    """Origin of the fleet's plane (:func:`fleetfuel.segment.paths.plane_origin`) from the end
+    points of the journeys of ``trips`` (the trips to cluster): the same for every partition."""
+    usable = _journeys(trips, cfg.route_unit)
+    lat = np.r_[usable["start_lat_deg"].to_numpy(np.float64), usable["end_lat_deg"].to_numpy(np.float64)]
+    lon = np.r_[usable["start_lon_deg"].to_numpy(np.float64), usable["end_lon_deg"].to_numpy(np.float64)]
+    return plane_origin(lat, lon)
+
+
+def path_cells(samples: pd.DataFrame, trip_ids: Collection[str], origin: tuple[float, float],
+               cfg: SegmentConfig) -> pd.DataFrame:
+    """:data:`CELL_COLUMNS` of the journeys formed by the trips ``trip_ids`` in ``samples``.
+
+    Works on any set of whole journeys (a partition holds whole operating periods), so the fleet's
+    table is the concatenation of its partitions' tables. Rows without a position are skipped.
+    """
+    key = journey_key(cfg)
+    narrow = samples[list(dict.fromkeys([schema.TRIP_ID, key, schema.LAT_DEG, schema.LON_DEG]))]
+    rows = narrow.loc[narrow[schema.TRIP_ID].isin(set(trip_ids)).to_numpy()]
+    rows = rows.loc[np.isfinite(float_column(rows, schema.LAT_DEG)) & np.isfinite(float_column(rows, schema.LON_DEG))]
+    codes, names = pd.factorize(rows[key].astype(str))
+    order = np.argsort(codes, kind="stable")
+    journey, cells = journey_cells(rows.iloc[order], codes[order].astype(np.int64), len(names), origin, cfg)
+    return pd.DataFrame({"journey": pd.array(np.asarray(names, dtype=object)[journey], dtype="string"),
+                         "cell_x": cells[:, 0], "cell_y": cells[:, 1], "sector": cells[:, 2]})
+
+
 def discover_routes(
-    trips: pd.DataFrame, samples: pd.DataFrame, cfg: SegmentConfig | None = None, taken: Collection[str] = ()
+    trips: pd.DataFrame, samples: pd.DataFrame | None, cfg: SegmentConfig | None = None, taken: Collection[str] = (),
+    cells: pd.DataFrame | None = None,
 ) -> tuple[pd.Series, pd.DataFrame]:
     """Cluster journeys into routes by end places and path similarity (see the module docstring).
 
@@ -118,12 +155,15 @@ def discover_routes(
     trips : DataFrame
         Trip table (:func:`fleetfuel.segment.trip_table`) of the trips to cluster; journeys without
         a start and end position are left out.
-    samples : DataFrame
+    samples : DataFrame or None
         Samples with ``trip_id``, ``period_id``, ``lat_deg``, ``lon_deg`` (rows of other trips are
-        ignored).
+        ignored); None when ``cells`` is given.
     cfg : SegmentConfig, optional
     taken : collection of str
         Route names already in use (from a route column or routes file): not given out.
+    cells : DataFrame, optional
+        The journeys' path cells (:func:`path_cells` of ``trips`` with :func:`discovery_origin`,
+        e.g. computed partition by partition); computed from ``samples`` when None.
 
     Returns
     -------
@@ -145,17 +185,15 @@ def discover_routes(
     a, b = place[:n], place[n:]
     lo, hi = (np.minimum(a, b), np.maximum(a, b)) if cfg.direction_agnostic else (a, b)
 
-    key = schema.TRIP_ID if cfg.route_unit == "trip" else schema.PERIOD_ID
-    index = pd.Series(np.arange(n), index=usable["journey"].to_numpy())
-    narrow = samples[list(dict.fromkeys([schema.TRIP_ID, key, schema.LAT_DEG, schema.LON_DEG]))]
-    rows = narrow.loc[narrow[schema.TRIP_ID].isin(trips[schema.TRIP_ID]).to_numpy()]
-    rows = rows.loc[rows[key].astype(str).isin(index.index).to_numpy()]
-    rows = rows.loc[
-        np.isfinite(float_column(rows, schema.LAT_DEG)) & np.isfinite(float_column(rows, schema.LON_DEG))
-    ]
-    codes = index[rows[key].astype(str)].to_numpy().astype(np.int64)
-    order = np.argsort(codes, kind="stable")
-    tokens = path_tokens(rows.iloc[order], codes[order], n, cfg)
+    key = journey_key(cfg)
+    if cells is None:
+        if samples is None:
+            raise ValueError("discover_routes needs samples or cells")
+        cells = path_cells(samples, trips[schema.TRIP_ID].astype(str), discovery_origin(trips, cfg), cfg)
+    index = pd.Series(np.arange(n), index=usable["journey"].astype(str).to_numpy())
+    cells = cells.loc[cells["journey"].astype(str).isin(index.index).to_numpy()]
+    journey = index[cells["journey"].astype(str)].to_numpy().astype(np.int64)
+    tokens = token_matrix(journey, cells[list(CELL_COLUMNS[1:])].to_numpy(np.int64), n)
     length = usable["distance_m"].to_numpy(np.float64)
     cluster = overlap_clusters(tokens, lo * (place.max() + 1) + hi, length, cfg)
 

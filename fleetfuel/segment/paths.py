@@ -45,10 +45,20 @@ PAIR_BLOCK: Final = 4_000_000
 """Journey pairs evaluated per block of the overlap product (bounds memory)."""
 
 
-def _plane(rows: pd.DataFrame) -> tuple[FloatArray, FloatArray]:
+def plane_origin(lat_deg: FloatArray, lon_deg: FloatArray) -> tuple[float, float]:
+    """Origin of the fleet's east/north plane: mean latitude and first longitude of the journeys'
+    end points (finite ones), in radians; (0, 0) when there is none."""
+    lat, lon = np.asarray(lat_deg, dtype=np.float64), np.asarray(lon_deg, dtype=np.float64)
+    ok = np.isfinite(lat) & np.isfinite(lon)
+    if not ok.any():
+        return 0.0, 0.0
+    return float(np.radians(np.mean(lat[ok]))), float(np.radians(lon[ok][0]))
+
+
+def _plane(rows: pd.DataFrame, origin: tuple[float, float]) -> tuple[FloatArray, FloatArray]:
     lat = np.radians(float_column(rows, schema.LAT_DEG))
     lon = np.radians(float_column(rows, schema.LON_DEG))
-    lat0, lon0 = float(np.mean(lat)), float(lon[0])
+    lat0, lon0 = origin
     dlon = np.angle(np.exp(1j * (lon - lon0)))  # wrapped to (-pi, pi]
     return WGS84_MEAN_RADIUS_M * np.cos(lat0) * dlon, WGS84_MEAN_RADIUS_M * (lat - lat0)
 
@@ -71,8 +81,10 @@ def _densified(x: FloatArray, y: FloatArray, codes: IntArray, spacing_m: float):
     return np.interp(target, length, x), np.interp(target, length, y), codes[first][journey]
 
 
-def path_tokens(rows: pd.DataFrame, codes: IntArray, n: int, cfg: SegmentConfig) -> sparse.csr_matrix:
-    """Binary journey x token matrix (tokens: grid cell and heading sector, see the module docstring).
+def journey_cells(
+    rows: pd.DataFrame, codes: IntArray, n: int, origin: tuple[float, float], cfg: SegmentConfig
+) -> tuple[IntArray, IntArray]:
+    """Each journey's tokens (grid cell and heading sector, see the module docstring), once each.
 
     Parameters
     ----------
@@ -82,10 +94,22 @@ def path_tokens(rows: pd.DataFrame, codes: IntArray, n: int, cfg: SegmentConfig)
         Journey index (0..n-1) of each row, non-decreasing.
     n : int
         Number of journeys.
+    origin : (float, float)
+        The plane's origin (:func:`plane_origin`), the same for every journey of the fleet. [rad]
     cfg : SegmentConfig
         ``path_cell_m``, ``path_heading_sectors``, ``direction_agnostic``.
+
+    Returns
+    -------
+    journey : ndarray of int
+        Journey index of each token.
+    cells : ndarray of int, shape (tokens, 3)
+        East cell, north cell, heading sector (``cfg.path_heading_sectors`` for a journey that
+        never moved: its first point). Sorted by journey, then cell.
     """
-    x, y = _plane(rows)
+    if not len(rows):
+        return np.zeros(0, dtype=np.int64), np.zeros((0, 3), dtype=np.int64)
+    x, y = _plane(rows, origin)
     px, py, journey = _densified(x, y, codes, cfg.path_cell_m / DENSIFY_PER_CELL)
     same = np.r_[False, journey[1:] == journey[:-1]]
     dx, dy = np.diff(px, prepend=px[0]), np.diff(py, prepend=py[0])
@@ -95,11 +119,17 @@ def path_tokens(rows: pd.DataFrame, codes: IntArray, n: int, cfg: SegmentConfig)
     sector = np.where(moves, np.minimum(sector, cfg.path_heading_sectors - 1), cfg.path_heading_sectors)
     moved = np.bincount(journey[moves], minlength=n) > 0
     use = moves | (~same & ~moved[journey])  # steps; a journey that never moved: its first point
-    cells = np.column_stack([np.floor(px / cfg.path_cell_m), np.floor(py / cfg.path_cell_m), sector])[use]
+    table = np.column_stack([journey, np.floor(px / cfg.path_cell_m), np.floor(py / cfg.path_cell_m), sector])[use]
+    unique = np.unique(table.astype(np.int64), axis=0)
+    return unique[:, 0], unique[:, 1:]
+
+
+def token_matrix(journey: IntArray, cells: IntArray, n: int) -> sparse.csr_matrix:
+    """Binary journey x token matrix of :func:`journey_cells` (tokens numbered in order of first use)."""
     keys = pd.MultiIndex.from_arrays([cells[:, 0], cells[:, 1], cells[:, 2]])
     token, uniques = pd.factorize(keys)
     matrix = sparse.csr_matrix(
-        (np.ones(token.size, dtype=np.int32), (journey[use], token)), shape=(n, len(uniques))
+        (np.ones(token.size, dtype=np.int32), (journey, token)), shape=(n, len(uniques))
     )
     matrix.data[:] = 1  # duplicates summed by the constructor: back to a set
     return matrix
@@ -113,7 +143,7 @@ def overlap_clusters(
     Parameters
     ----------
     tokens : csr_matrix
-        From :func:`path_tokens`.
+        From :func:`token_matrix`.
     groups : ndarray of int
         Group of each journey (its end-place pair); journeys of different groups never join.
     length_m : ndarray

@@ -54,10 +54,33 @@ ROUTE_TABLE_COLUMNS = (
 """Columns of the route table of :func:`assign_routes` (distance in km and time in h, for people)."""
 
 
+def given_routes(trips: pd.DataFrame, rules: pd.DataFrame | None = None) -> tuple[pd.Series, pd.Series]:
+    """Route and ``route_source`` of the trips a route column or the routes file names (<NA> elsewhere)."""
+    route = (
+        trips[schema.ROUTE].astype("string")
+        if schema.ROUTE in trips.columns
+        else pd.Series(pd.NA, index=trips.index, dtype="string")
+    )
+    source = pd.Series(pd.NA, index=trips.index, dtype="string")
+    source[route.notna()] = "column"
+    if rules is not None and not rules.empty:
+        open_trips = trips.loc[route.isna()]
+        matched = open_trips[schema.TRIP_ID].map(match_rules(open_trips, rules))
+        hit = matched.notna()
+        route[hit.index[hit]] = matched[hit]
+        source[hit.index[hit]] = "file"
+    return route, source
+
+
 def trip_routes(
-    trips: pd.DataFrame, samples: pd.DataFrame, cfg: SegmentConfig, rules: pd.DataFrame | None = None
+    trips: pd.DataFrame, samples: pd.DataFrame | None, cfg: SegmentConfig, rules: pd.DataFrame | None = None,
+    cells: pd.DataFrame | None = None,
 ) -> tuple[pd.DataFrame, pd.DataFrame]:
     """Route and ``route_source`` of every trip, and the discovered routes' end places.
+
+    ``cells`` are the path cells of the trips left to discovery (:func:`given_routes` gives none;
+    :func:`fleetfuel.segment.discovery.path_cells`), e.g. computed partition by partition; when
+    None they are computed from ``samples``.
 
     Returns
     -------
@@ -67,21 +90,9 @@ def trip_routes(
         :data:`fleetfuel.segment.discovery.DISCOVERED_COLUMNS` of the discovered routes.
     """
     out = trips.copy()
-    route = (
-        out[schema.ROUTE].astype("string")
-        if schema.ROUTE in out.columns
-        else pd.Series(pd.NA, index=out.index, dtype="string")
-    )
-    source = pd.Series(pd.NA, index=out.index, dtype="string")
-    source[route.notna()] = "column"
-    if rules is not None and not rules.empty:
-        open_trips = out.loc[route.isna()]
-        matched = open_trips[schema.TRIP_ID].map(match_rules(open_trips, rules))
-        hit = matched.notna()
-        route[hit.index[hit]] = matched[hit]
-        source[hit.index[hit]] = "file"
+    route, source = given_routes(out, rules)
     taken = set(route.dropna().tolist()) | (set() if rules is None else set(rules[schema.ROUTE].tolist()))
-    found, ends = discover_routes(out.loc[route.isna()], samples, cfg, taken=taken)
+    found, ends = discover_routes(out.loc[route.isna()], samples, cfg, taken=taken, cells=cells)
     guess = out[schema.TRIP_ID].map(found)
     hit = route.isna() & guess.notna()
     route[hit] = guess[hit]
@@ -94,7 +105,30 @@ def trip_routes(
     return out, ends
 
 
-def _route_table(trips: pd.DataFrame, ends: pd.DataFrame, rules: pd.DataFrame | None) -> pd.DataFrame:
+def load_rules(routes_file: str | Path | pd.DataFrame | None) -> pd.DataFrame | None:
+    """The rules of a routes file (path, or rules already loaded), in :data:`RULE_COLUMNS`; None for none."""
+    rules = routes_file if routes_file is None or isinstance(routes_file, pd.DataFrame) else load_routes_file(routes_file)
+    return None if rules is None else rules[list(RULE_COLUMNS)]
+
+
+def with_routes(samples: pd.DataFrame, routed_trips: pd.DataFrame) -> pd.DataFrame:
+    """``samples`` (segmented, sorted) with ``route`` and ``route_source`` of their trips set on
+    every trip row; rows between trips keep a logged ``route`` value and have <NA> ``route_source``."""
+    out = samples.copy()
+    by_trip = routed_trips.set_index(schema.TRIP_ID)
+    in_trip = out[schema.TRIP_ID].notna()
+    logged = (
+        out[schema.ROUTE].astype("string")
+        if schema.ROUTE in out.columns
+        else pd.Series(pd.NA, index=out.index, dtype="string")
+    )
+    out[schema.ROUTE] = logged.where(~in_trip, out[schema.TRIP_ID].map(by_trip[schema.ROUTE])).astype("string")
+    out[schema.ROUTE_SOURCE] = out[schema.TRIP_ID].map(by_trip[schema.ROUTE_SOURCE]).astype("string")
+    return out
+
+
+def route_table(trips: pd.DataFrame, ends: pd.DataFrame, rules: pd.DataFrame | None) -> pd.DataFrame:
+    """The route table (:data:`ROUTE_TABLE_COLUMNS`) of routed trips (:func:`trip_routes`)."""
     grouped = trips.groupby(schema.ROUTE, sort=True)
     precedence = {name: k for k, name in enumerate(schema.ROUTE_SOURCES)}
     table = pd.DataFrame(
@@ -163,22 +197,6 @@ def assign_routes(
     out = ordered(samples) if has_ids else split_trips(samples, cfg)
     if trips is None:
         trips = trip_table(out, cfg)
-    if routes_file is None or isinstance(routes_file, pd.DataFrame):
-        rules = routes_file
-    else:
-        rules = load_routes_file(routes_file)
-    if rules is not None:
-        rules = rules[list(RULE_COLUMNS)]
+    rules = load_rules(routes_file)
     routed, ends = trip_routes(trips, out, cfg, rules)
-    by_trip = routed.set_index(schema.TRIP_ID)
-    in_trip = out[schema.TRIP_ID].notna()
-    logged = (
-        out[schema.ROUTE].astype("string")
-        if schema.ROUTE in out.columns
-        else pd.Series(pd.NA, index=out.index, dtype="string")
-    )
-    out[schema.ROUTE] = logged.where(~in_trip, out[schema.TRIP_ID].map(by_trip[schema.ROUTE])).astype(
-        "string"
-    )
-    out[schema.ROUTE_SOURCE] = out[schema.TRIP_ID].map(by_trip[schema.ROUTE_SOURCE]).astype("string")
-    return out, _route_table(routed, ends, rules)
+    return with_routes(out, routed), route_table(routed, ends, rules)

@@ -9,6 +9,8 @@ from geographiclib.geodesic import Geodesic
 from segment_frames import along, drive_profile, frame, join
 
 from fleetfuel.segment import SegmentConfig, assign_routes, discover_routes, split_trips, trip_table
+from fleetfuel.segment.discovery import CELL_COLUMNS, discovery_origin, path_cells
+from fleetfuel.segment.routes import trip_routes
 
 A = (52.000, 5.000)  # depot (invented scenario)
 B = (52.060, 5.100)  # harbour
@@ -172,3 +174,26 @@ def test_period_journeys_group_daily_duties_into_routes() -> None:
     per_vehicle = out.dropna(subset=["trip_id"]).groupby("vehicle_id")["route"].unique().map(list)
     assert per_vehicle.to_dict() == {"V1": ["R01"], "V2": ["R01"], "V3": ["R02"]}
     assert table.set_index("route")["trips"].to_dict() == {"R01": 18, "R02": 6}
+
+
+def test_path_cells_of_each_period_give_the_routes_of_the_whole_frame() -> None:
+    # The engine computes path cells period by period (one partition each) on the fleet's common
+    # plane: the cells, and so the routes, are those of the whole frame at once (common practice,
+    # no source: the work must not depend on how the fleet is cut).
+    plan = {"V1": [[A, B], [B, C], [C, A]], "V2": [[A, C], [C, B], [B, A]], "V3": [[A, DETOUR, B], [B, DETOUR, A]]}
+    samples = split_trips(_fleet(plan, days=2))
+    trips = trip_table(samples)
+    cfg = SegmentConfig()
+    origin = discovery_origin(trips, cfg)
+    ids = trips["trip_id"].astype(str)
+    whole = path_cells(samples, ids, origin, cfg)
+    parts = pd.concat([path_cells(rows, ids, origin, cfg) for _, rows in samples.groupby("period_id", sort=True)],
+                      ignore_index=True)
+    key = list(CELL_COLUMNS)
+    pd.testing.assert_frame_equal(whole.sort_values(key).reset_index(drop=True),
+                                  parts.sort_values(key).reset_index(drop=True))
+    assert whole.groupby("journey").size().min() >= 20  # a ~30 km duty crosses tens of 1 km cells
+    from_cells, _ = trip_routes(trips, None, cfg, cells=parts)
+    from_frame, _ = trip_routes(trips, samples, cfg)
+    pd.testing.assert_frame_equal(from_cells, from_frame)
+    assert from_cells["route"].nunique() == 3
