@@ -17,8 +17,10 @@ process importing fleetfuel, a fixed cost a long run pays once) is timed apart
 
 ``--cap-mib CAP`` measures the memory cap instead: a fleet whose generated samples take
 ``--cap-factor`` (default 3) times CAP in memory, written week by week so the benchmark itself
-stays small, run through a 2-worker Dask LocalCluster whose workers are limited to CAP; prints
-the driver's and each worker's peak RSS against CAP.
+stays small, run through the whole main job (:func:`fleetfuel.pipeline.forecast_paths`: read,
+clean, routes, duty types and cycles, forecast) on a 2-worker Dask LocalCluster whose workers
+are limited to CAP; prints the driver's and each worker's peak RSS against CAP, and the
+workers' peak in each stage.
 
 Usage: ``python benchmarks/bench_scale.py [--weeks 10 30 100] [--seed S]``
 or ``python benchmarks/bench_scale.py --cap-mib 640 [--cap-factor 3]``
@@ -45,17 +47,21 @@ DAYS_PER_WEEK = 5  # working days
 ONE_THREAD = {name: "1" for name in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS", "NUMBA_NUM_THREADS")}
 
 
-def child(paths: list[str], work: str, kind: str, workers: int, cap_bytes: int = 0) -> None:
-    """Run the partitioned pass once and print its figures (JSON) on stdout."""
+def child(paths: list[str], work: str, kind: str, workers: int, cap_bytes: int = 0, job: str = "prepare") -> None:
+    """Run the partitioned pass (``job`` "prepare") or the main job ("forecast") once and print
+    its figures (JSON) on stdout."""
     import dataclasses
 
-    from fleetfuel.config import RunConfig
+    from fleetfuel import pipeline
+    from fleetfuel.demo import demo_config
     from fleetfuel.engine.config import EngineConfig
     from fleetfuel.engine.executors import make_engine, peak_rss_bytes, pin_threads
     from fleetfuel.engine.stream import prepare_fleet
 
     pin_threads()
-    cfg = dataclasses.replace(RunConfig(), engine=EngineConfig(kind=kind, workers=workers, memory_limit_bytes=cap_bytes))
+    # the demo's settings: the generated fleet's vehicle classes and current specs
+    cfg = dataclasses.replace(demo_config(), engine=EngineConfig(kind=kind, workers=workers,
+                                                                 memory_limit_bytes=cap_bytes))
     with make_engine(cfg.engine) as engine:
         start = time.perf_counter()
         reached = engine.warm_up()  # start-up is a fixed cost, paid once per run: timed apart
@@ -63,7 +69,14 @@ def child(paths: list[str], work: str, kind: str, workers: int, cap_bytes: int =
         start = time.perf_counter()
         fleet = prepare_fleet(paths, cfg, work, engine)
         wall = time.perf_counter() - start
+        job_s = 0.0
+        if job == "forecast":
+            start = time.perf_counter()
+            pipeline.forecast_paths(paths, dataclasses.replace(cfg, engine=dataclasses.replace(cfg.engine, resume=True)),
+                                    work_dir=work, engine=engine)  # resumes the pass above: its partitions are kept
+            job_s = time.perf_counter() - start
     tasks = fleet.tasks()
+    stage_peaks = (tasks.groupby("stage")["peak_rss_bytes"].max() / MIB).round(0).to_dict()
     peaks = tasks.groupby("worker")["peak_rss_bytes"].max() / MIB
     folder = Path(work)
     dataset = sum(p.stat().st_size for name in ("samples", "features", "trips") for p in (folder / name).rglob("*.parquet"))
@@ -73,13 +86,14 @@ def child(paths: list[str], work: str, kind: str, workers: int, cap_bytes: int =
         "driver_peak_mib": peak_rss_bytes() / MIB,
         "worker_peak_mib": peaks.to_dict(), "dataset_bytes": dataset, "raw_copy_bytes": raw,
         "workers_used": int(tasks.loc[tasks["stage"] == "clean", "worker"].nunique()),
+        "job_s": job_s, "stage_peak_mib": stage_peaks,
     }))
 
 
-def measure(paths: list[Path], work: Path, kind: str, workers: int, cap_bytes: int = 0) -> dict:
+def measure(paths: list[Path], work: Path, kind: str, workers: int, cap_bytes: int = 0, job: str = "prepare") -> dict:
     env = {**os.environ, **ONE_THREAD, "PYTHONPATH": str(ROOT) + os.pathsep + os.environ.get("PYTHONPATH", "")}
-    cmd = [sys.executable, str(Path(__file__).resolve()), "--child", kind, str(workers), str(cap_bytes), str(work),
-           *map(str, paths)]
+    cmd = [sys.executable, str(Path(__file__).resolve()), "--child", kind, str(workers), str(cap_bytes), job,
+           str(work), *map(str, paths)]
     out = subprocess.run(cmd, env=env, capture_output=True, text=True, check=False)
     if out.returncode != 0:
         raise SystemExit(f"child failed ({kind}, {workers}): {out.stderr.strip().splitlines()[-1:]}")
@@ -122,11 +136,13 @@ def cap_run(cap_mib: float, factor: float, seed: int) -> int:
         weeks, held, size = make_capped_fleet(base / "fleet", factor * cap, seed)
         print(f"fleet: {weeks} vehicle-weeks, samples {held / MIB:,.0f} MiB in memory ({held / cap:.1f}x the "
               f"{cap_mib:.0f} MiB cap), input files {size / MIB:,.0f} MiB")
-        got = measure([base / "fleet"], base / "work", "dask", 2, cap)
+        got = measure([base / "fleet"], base / "work", "dask", 2, cap, job="forecast")
         peaks = sorted(got["worker_peak_mib"].values())
         worst = max([got["driver_peak_mib"], *peaks])
         verdict = "under" if worst < cap_mib else "OVER"
-        print(f"{got['rows_in']:,} rows in {got['partitions']} partitions, {got['wall_s']:.1f} s on 2 Dask workers")
+        print(f"{got['rows_in']:,} rows in {got['partitions']} partitions on 2 Dask workers: read, clean and "
+              f"segment {got['wall_s']:.1f} s, then routes, cycles and forecast {got['job_s']:.1f} s")
+        print("workers' peak RSS by the end of each stage [MiB]: " + ", ".join(f"{k} {v:.0f}" for k, v in got["stage_peak_mib"].items()))
         print(f"peak RSS: driver {got['driver_peak_mib']:.0f} MiB, workers [{', '.join(f'{v:.0f}' for v in peaks)}] MiB: "
               f"largest {worst:.0f} MiB, {worst / cap_mib:.2f}x the cap ({verdict} the cap)")
     return 0
@@ -141,8 +157,8 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--child", nargs="+", help=argparse.SUPPRESS)
     args = parser.parse_args(argv)
     if args.child:
-        kind, workers, cap, work, *paths = args.child
-        child(paths, work, kind, int(workers), int(cap))
+        kind, workers, cap, job, work, *paths = args.child
+        child(paths, work, kind, int(workers), int(cap), job)
         return 0
     print(f"machine: {os.cpu_count()} CPUs; python {sys.version.split()[0]}")
     if args.cap_mib:
