@@ -3,6 +3,8 @@ acceptance table, the fuel check and the held-out day hold, cycles read back, ru
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import numpy as np
 import pandas as pd
 import pytest
@@ -10,6 +12,7 @@ import pytest
 from fleetfuel import pipeline, schema, segment
 from fleetfuel.cycles import TARGET_STATS, CyclesConfig, build_cycles
 from fleetfuel.cycles.stats import with_derived
+from fleetfuel.engine.workdir import read_frames
 from fleetfuel.report.cycle_outputs import write_cycle_outputs
 from fleetfuel.resources import data_dir
 from fleetfuel.simulate.cycle import read_cycle
@@ -18,8 +21,21 @@ pytestmark = pytest.mark.slow
 
 
 @pytest.fixture(scope="module")
-def run() -> pipeline.CyclesResult:
-    return pipeline.cycles_paths([data_dir("sample_logs")])
+def work(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    return tmp_path_factory.mktemp("work")
+
+
+@pytest.fixture(scope="module")
+def run(work: Path) -> pipeline.CyclesResult:
+    return pipeline.cycles_paths([data_dir("sample_logs")], work_dir=work)
+
+
+@pytest.fixture(scope="module")
+def samples(run: pipeline.CyclesResult, work: Path) -> pd.DataFrame:
+    """The segmented samples the job left in its work folder (the job itself never holds them all)."""
+    frame = read_frames(sorted((work / "samples").rglob("*.parquet")))
+    assert frame is not None
+    return frame.sort_values([schema.VEHICLE_ID, schema.TIME_UTC], kind="stable").reset_index(drop=True)
 
 
 @pytest.fixture(scope="module")
@@ -113,8 +129,7 @@ def test_cycle_files_read_back_with_the_achieved_statistics(run: pipeline.Cycles
         assert abs(cyc.time_s[-1] - CyclesConfig().target_duration_s) <= 0.06 * CyclesConfig().target_duration_s
 
 
-def test_cycles_are_real_driving_read_back_by_id(run: pipeline.CyclesResult) -> None:
-    samples = run.samples
+def test_cycles_are_real_driving_read_back_by_id(run: pipeline.CyclesResult, samples: pd.DataFrame) -> None:
     comp = run.cycles.composition
     for name, trace in run.cycles.cycles.items():
         parts = []
@@ -129,8 +144,12 @@ def test_cycles_are_real_driving_read_back_by_id(run: pipeline.CyclesResult) -> 
         np.testing.assert_array_equal(np.concatenate(parts), trace["speed_m_s"].to_numpy())
 
 
-def test_same_input_same_summary_bytes(run: pipeline.CyclesResult, tmp_path) -> None:
-    samples = run.samples
+def test_same_input_same_summary_bytes(run: pipeline.CyclesResult, samples: pd.DataFrame, tmp_path) -> None:
+    # the job (pool read back from the work folder, SAFD summed partition by partition) and the
+    # library on the whole frame in memory write the same bytes; the frame gets the job's routes
+    by_trip = run.cycles.microtrips.drop_duplicates(schema.TRIP_ID).set_index(schema.TRIP_ID)
+    samples = samples.assign(**{name: samples[schema.TRIP_ID].map(by_trip[name]).astype("string")
+                                for name in (schema.ROUTE, schema.ROUTE_SOURCE)})
     features = segment.microtrip_features(samples)
     before = samples.copy()
     again = build_cycles(samples, features)
