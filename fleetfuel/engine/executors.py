@@ -6,7 +6,8 @@ order of the list. Tasks read their inputs from and write their outputs to the w
 what crosses a process or network boundary is a few kilobytes per partition. Results therefore
 cannot depend on the engine, on the worker count or on the order tasks finish in.
 
-Each task runs with one BLAS/OpenMP thread (:func:`threadpoolctl.threadpool_limits`), and in
+Each task runs with one BLAS/OpenMP thread (a :class:`threadpoolctl.ThreadpoolController` made once
+per process, after the task modules have loaded their libraries), and in
 worker processes pyarrow's thread pools are pinned to one as well, so a worker is one core.
 """
 
@@ -15,6 +16,7 @@ from __future__ import annotations
 import os
 import resource
 import socket
+import sys
 import time
 import uuid
 from collections.abc import Callable, Iterator, Sequence
@@ -23,7 +25,7 @@ from dataclasses import dataclass
 from multiprocessing import get_context
 from typing import Any, Generic, TypeVar
 
-from threadpoolctl import threadpool_limits
+from threadpoolctl import ThreadpoolController
 
 from fleetfuel.engine.config import EngineConfig
 from fleetfuel.errors import ConfigError
@@ -56,12 +58,27 @@ class Outcome(Generic[R]):
 
 def worker_name() -> str:
     """The Dask worker's address inside a Dask task, else ``host:pid`` of this process."""
-    try:
+    if "distributed" in sys.modules:  # a Dask worker has it loaded; never import it just to ask
         from distributed import get_worker
 
-        return str(get_worker().address)
-    except (ImportError, ValueError):
-        return f"{socket.gethostname()}:{os.getpid()}"
+        try:
+            return str(get_worker().address)
+        except ValueError:  # not inside a Dask task
+            pass
+    return f"{socket.gethostname()}:{os.getpid()}"
+
+
+_CONTROLLERS: dict[int, ThreadpoolController] = {}
+
+
+def _controller() -> ThreadpoolController:
+    """This process's thread-pool controller (finding the loaded BLAS and OpenMP libraries takes
+    about 10 ms: once per process, not once per task)."""
+    pid = os.getpid()
+    if pid not in _CONTROLLERS:
+        _CONTROLLERS.clear()  # a forked child does not reuse its parent's
+        _CONTROLLERS[pid] = ThreadpoolController()
+    return _CONTROLLERS[pid]
 
 
 def pin_threads() -> None:
@@ -93,7 +110,7 @@ def peak_rss_bytes() -> int:
 def run_task(fn: Callable[[T], R], stage: str, key: str, item: T) -> Outcome[R]:
     """Run ``fn(item)`` with one BLAS thread and time it (what every engine calls per task)."""
     start = time.perf_counter()
-    with threadpool_limits(limits=1):
+    with _controller().limit(limits=1):
         value = fn(item)
     return Outcome(value, TaskRecord(stage, key, worker_name(), time.perf_counter() - start, peak_rss_bytes()))
 
