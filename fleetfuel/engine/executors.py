@@ -107,11 +107,20 @@ def peak_rss_bytes() -> int:
     return int(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss) * KIB
 
 
+def _release_arrow_memory() -> None:
+    """Hand the memory pyarrow's pool keeps after a task back to the system (its allocator holds
+    freed pages for reuse; over thousands of tasks a worker would creep towards its limit)."""
+    import pyarrow as pa
+
+    pa.default_memory_pool().release_unused()
+
+
 def run_task(fn: Callable[[T], R], stage: str, key: str, item: T) -> Outcome[R]:
     """Run ``fn(item)`` with one BLAS thread and time it (what every engine calls per task)."""
     start = time.perf_counter()
     with _controller().limit(limits=1):
         value = fn(item)
+    _release_arrow_memory()
     return Outcome(value, TaskRecord(stage, key, worker_name(), time.perf_counter() - start, peak_rss_bytes()))
 
 
@@ -253,11 +262,24 @@ class DaskEngine(Engine):
     def _run(self, fn: Callable[[T], R], items: list[T], keys: list[str], stage: str) -> Iterator[Outcome[R]]:
         token = uuid.uuid4().hex[:8]
         names = [f"{stage}-{k}-{token}" for k in keys]
-        futures = [
+        from distributed import as_completed
+
+        order = {name: n for n, name in enumerate(names)}
+        pending = as_completed([
             self._client.submit(run_task, fn, stage, k, item, key=name, pure=False, retries=self._retries)
             for k, item, name in zip(keys, items, names, strict=True)
-        ]
-        return iter(self._client.gather(futures))
+        ])
+        # Results are fetched as tasks finish and released at once: a result left on its worker
+        # until the end would be lost with the worker (killed at its memory limit, say) and its
+        # task run again. Handed on in input order.
+        done: dict[int, Outcome[R]] = {}
+        handed = 0
+        for future in pending:
+            done[order[future.key]] = future.result()  # an erred task raises here, as gather would
+            future.release()
+            while handed in done:
+                yield done.pop(handed)
+                handed += 1
 
 
 def make_engine(cfg: EngineConfig) -> Engine:
