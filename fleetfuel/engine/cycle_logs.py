@@ -17,9 +17,6 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
-import pyarrow as pa
-import pyarrow.compute as pc
-import pyarrow.parquet as pq
 
 from fleetfuel import schema
 from fleetfuel.cycles.config import CyclesConfig
@@ -27,7 +24,7 @@ from fleetfuel.cycles.logs import POOL_COLUMNS, microtrip_rows
 from fleetfuel.cycles.pieces import FloatArray, type_safd_counts
 from fleetfuel.engine.executors import Engine
 from fleetfuel.engine.stream import PreparedFleet
-from fleetfuel.engine.workdir import WorkFolder, read_frames, typed
+from fleetfuel.engine.workdir import WorkFolder, read_frames, read_trip_rows
 from fleetfuel.segment.config import SegmentConfig
 
 SAFD_COLUMNS = (schema.TIME_UTC, schema.SPEED_M_S, schema.TRIP_ID, schema.MICROTRIP_ID)
@@ -46,17 +43,9 @@ class SafdJob:
     segment: SegmentConfig
 
 
-def _read(path: Path, columns: Collection[str], trips: Collection[str] | None = None) -> pd.DataFrame | None:
-    if not path.is_file():
-        return None
-    wanted = None if trips is None else pc.field(schema.TRIP_ID).isin(pa.array(sorted(trips), type=pa.string()))
-    table = pq.read_table(path, columns=list(columns), filters=wanted)
-    return typed(table.to_pandas()) if table.num_rows else None
-
-
 def partition_type_safd(job: SafdJob) -> dict[str, FloatArray]:
     """:func:`fleetfuel.cycles.pieces.type_safd_counts` of one partition's listed micro-trips. [s]"""
-    samples = _read(WorkFolder(Path(job.work)).table("samples", job.key), SAFD_COLUMNS)
+    samples = read_trip_rows(WorkFolder(Path(job.work)).table("samples", job.key), SAFD_COLUMNS)
     if samples is None:
         return {}
     types = pd.Series(list(job.types), index=list(job.ids), dtype="string")
@@ -88,9 +77,7 @@ class WorkFolderCycleLogs:
             if len(mine):
                 jobs.append(SafdJob(key, str(self.fleet.work.root), tuple(ids.loc[mine.index, schema.MICROTRIP_ID]),
                                     tuple(mine.astype(str)), cfg, segment_cfg))
-        parts = self.engine.map(partition_type_safd, jobs, [j.key for j in jobs], "type safd")
-        self.fleet.work.log_tasks(self.engine.records)
-        self.engine.records.clear()
+        parts = self.fleet.run_round(self.engine, partition_type_safd, jobs, "type safd")
         total: dict[str, FloatArray] = {}
         for part in parts:  # fleet order: the same sums whatever the engine
             for name, counts in part.items():
@@ -103,7 +90,7 @@ class WorkFolderCycleLogs:
         for key, ids in self._ids:
             mine = ids.loc[ids[schema.MICROTRIP_ID].isin(wanted)]
             if len(mine):
-                rows = _read(self.fleet.work.table("samples", key), POOL_COLUMNS, set(mine[schema.TRIP_ID]))
+                rows = read_trip_rows(self.fleet.work.table("samples", key), POOL_COLUMNS, set(mine[schema.TRIP_ID]))
                 if rows is not None:
                     parts.append(microtrip_rows(rows, mine[schema.MICROTRIP_ID]))
         if not parts:

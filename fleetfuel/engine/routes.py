@@ -20,14 +20,11 @@ from typing import TypeVar
 
 import numpy as np
 import pandas as pd
-import pyarrow as pa
-import pyarrow.compute as pc
-import pyarrow.parquet as pq
 
 from fleetfuel import schema
 from fleetfuel.engine.executors import Engine
 from fleetfuel.engine.stream import PreparedFleet
-from fleetfuel.engine.workdir import WorkFolder, read_frames, typed
+from fleetfuel.engine.workdir import WorkFolder, read_frames, read_trip_rows
 from fleetfuel.forecast.energy import RUN_COLUMNS, RouteEnergy, energy_of_runs, shift_runs, shift_traces
 from fleetfuel.forecast.grade import sustained_grades
 from fleetfuel.forecast.logs import LogCell
@@ -59,10 +56,11 @@ class PartitionRoutesJob:
 def partition_samples(job: PartitionRoutesJob) -> pd.DataFrame:
     """The partition's rows of the job's trips (:data:`ROUTE_COLUMNS`), with their ``route``."""
     route_of = {trip: route for route, trips in job.routes for trip in trips}
-    wanted = pa.array(sorted(route_of), type=pa.string())
-    table = pq.read_table(WorkFolder(Path(job.work)).table("samples", job.key), columns=list(ROUTE_COLUMNS),
-                          filters=pc.field(schema.TRIP_ID).isin(wanted))
-    frame = typed(table.to_pandas())
+    frame = read_trip_rows(WorkFolder(Path(job.work)).table("samples", job.key), ROUTE_COLUMNS, route_of)
+    if frame is None:  # no row of these trips (cannot happen for trips read from this partition)
+        frame = pd.DataFrame({name: pd.Series([], dtype="float64") for name in ROUTE_COLUMNS}).astype(
+            {schema.PERIOD_ID: "string", schema.TRIP_ID: "string"})
+        frame[schema.TIME_UTC] = pd.to_datetime(frame[schema.TIME_UTC], utc=True)
     frame[schema.ROUTE] = frame[schema.TRIP_ID].astype(str).map(route_of).astype("string")
     return frame
 
@@ -115,10 +113,7 @@ class WorkFolderLogs:
         return jobs
 
     def _map(self, fn: Callable[[PartitionRoutesJob], R], jobs: list[PartitionRoutesJob], stage: str) -> list[R]:
-        out = self.engine.map(fn, jobs, [j.key for j in jobs], stage)
-        self.fleet.work.log_tasks(self.engine.records)
-        self.engine.records.clear()
-        return out
+        return self.fleet.run_round(self.engine, fn, jobs, stage)
 
     def steepest_grades(self, routes: Sequence[str], window_m: float) -> pd.Series:
         best = dict.fromkeys(routes, float("nan"))

@@ -9,11 +9,11 @@ tables only). The row account is built from the per-file facts and per-partition
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass
 from functools import cached_property
 from pathlib import Path
-from typing import Any
+from typing import Any, TypeVar
 
 import pandas as pd
 
@@ -39,6 +39,9 @@ from fleetfuel.engine.workdir import WorkFolder, file_fingerprint, read_frames, 
 from fleetfuel.ingest.base import FileFailure, LogBatch, LogFile, empty_dropped, empty_raw_frame
 from fleetfuel.ingest.dispatch import expand_paths
 from fleetfuel.ingest.profiles import load_profile
+
+J = TypeVar("J")
+R = TypeVar("R")
 
 
 @dataclass(frozen=True)
@@ -94,6 +97,23 @@ class PreparedFleet:
     def tasks(self) -> pd.DataFrame:
         """The task log (stage, key, worker, seconds) of every run into this work folder."""
         return self.work.tasks()
+
+    def partition_ids(self, table: str, column: str, wanted: set[str]) -> Iterator[tuple[str, tuple[str, ...]]]:
+        """(partition key, its ids in ``wanted``) of each partition whose ``table``'s ``column``
+        holds any, in fleet order."""
+        for w in self.partitions:
+            ids = read_frames([self.work.table(table, w.key)], (column,))
+            mine = () if ids is None else tuple(i for i in ids[column].astype(str) if i in wanted)
+            if mine:
+                yield w.key, mine
+
+    def run_round(self, engine: Engine, fn: Callable[[J], R], jobs: list[J], stage: str) -> list[R]:
+        """``engine.map`` of ``fn`` over jobs (each with a partition ``key``), logged in the task log."""
+        try:
+            return engine.map(fn, jobs, [job.key for job in jobs], stage)  # type: ignore[attr-defined]
+        finally:  # an interrupted round's finished tasks are in the log too
+            self.work.log_tasks(engine.records)
+            engine.records.clear()
 
 
 def fingerprint(paths: Sequence[Path], settings: Sequence[Any]) -> dict[str, Any]:
@@ -200,15 +220,9 @@ def fleet_consumption(fleet: PreparedFleet, engine: Engine, microtrips: pd.DataF
     """
     flag = "measured" if "measured" in microtrips.columns else "eligible"
     wanted = set(microtrips.loc[microtrips[flag].to_numpy(dtype=bool), schema.MICROTRIP_ID].astype(str))
-    jobs = []
-    for w in fleet.partitions:
-        ids = read_frames([fleet.work.table("features", w.key)], (schema.MICROTRIP_ID,))
-        mine = () if ids is None else tuple(i for i in ids[schema.MICROTRIP_ID].astype(str) if i in wanted)
-        if mine:
-            jobs.append(ConsumptionJob(w.key, str(fleet.work.root), spec, sim, mine))
-    parts = engine.map(partition_consumption, jobs, [j.key for j in jobs], "fuel check")
-    fleet.work.log_tasks(engine.records)
-    engine.records.clear()
+    jobs = [ConsumptionJob(key, str(fleet.work.root), spec, sim, mine)
+            for key, mine in fleet.partition_ids("features", schema.MICROTRIP_ID, wanted)]
+    parts = fleet.run_round(engine, partition_consumption, jobs, "fuel check")
     found = [p for p in parts if len(p)]
     out = pd.concat(found) if found else pd.Series(dtype="float64")
     return out.reindex(sorted(wanted), fill_value=0.0)
@@ -234,15 +248,9 @@ def fleet_routes(fleet: PreparedFleet, engine: Engine, segment_cfg: Any, routes_
     open_trips = trips.loc[given.isna().to_numpy()]
     origin = discovery.discovery_origin(open_trips, segment_cfg)
     wanted = set(open_trips[schema.TRIP_ID].astype(str))
-    jobs = []
-    for w in fleet.partitions:
-        ids = read_frames([fleet.work.table("trips", w.key)], (schema.TRIP_ID,))
-        mine = () if ids is None else tuple(i for i in ids[schema.TRIP_ID].astype(str) if i in wanted)
-        if mine:
-            jobs.append(PathsJob(w.key, str(fleet.work.root), mine, origin, segment_cfg))
-    parts = engine.map(partition_path_cells, jobs, [j.key for j in jobs], "route paths")
-    fleet.work.log_tasks(engine.records)
-    engine.records.clear()
+    jobs = [PathsJob(key, str(fleet.work.root), mine, origin, segment_cfg)
+            for key, mine in fleet.partition_ids("trips", schema.TRIP_ID, wanted)]
+    parts = fleet.run_round(engine, partition_path_cells, jobs, "route paths")
     found = [p for p in parts if len(p)]
     cells = pd.concat(found, ignore_index=True) if found else pd.DataFrame(columns=list(discovery.CELL_COLUMNS))
     routed, ends = routes.trip_routes(trips, None, segment_cfg, rules, cells=cells)

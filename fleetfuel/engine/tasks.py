@@ -35,12 +35,12 @@ from fleetfuel import clean, schema, segment
 from fleetfuel.clean.config import CleanConfig
 from fleetfuel.cycles.validate import microtrip_consumption
 from fleetfuel.engine.partition import partition_key, window_cuts, window_of
-from fleetfuel.engine.workdir import WorkFolder, read_frames, typed, write_frame, write_json
+from fleetfuel.engine.workdir import WorkFolder, read_frames, read_trip_rows, typed, write_frame, write_json
 from fleetfuel.ingest.base import empty_raw_frame
 from fleetfuel.ingest.config import IngestConfig
 from fleetfuel.ingest.dispatch import read_path
 from fleetfuel.segment.config import SegmentConfig
-from fleetfuel.segment.discovery import path_cells
+from fleetfuel.segment.discovery import CELL_COLUMNS, path_cells
 from fleetfuel.simulate.config import SimConfig
 from fleetfuel.simulate.reference import consumption_model
 
@@ -241,7 +241,7 @@ PATH_COLUMNS = (schema.PERIOD_ID, schema.TRIP_ID, schema.LAT_DEG, schema.LON_DEG
 
 def partition_path_cells(job: PathsJob) -> pd.DataFrame:
     """:func:`fleetfuel.segment.discovery.path_cells` of one partition (a few rows per journey and km)."""
-    path = WorkFolder(Path(job.work)).table("samples", job.key)
-    wanted = pc.field(schema.TRIP_ID).isin(pa.array(list(job.trips), type=pa.string()))
-    samples = typed(pq.read_table(path, columns=list(PATH_COLUMNS), filters=wanted).to_pandas())
+    samples = read_trip_rows(WorkFolder(Path(job.work)).table("samples", job.key), PATH_COLUMNS, job.trips)
+    if samples is None:
+        return pd.DataFrame(columns=list(CELL_COLUMNS))
     return path_cells(samples, job.trips, job.origin, job.segment)

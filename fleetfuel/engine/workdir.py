@@ -29,6 +29,7 @@ from typing import Any, Final
 
 import pandas as pd
 import pyarrow as pa
+import pyarrow.compute as pc
 import pyarrow.parquet as pq
 
 from fleetfuel import schema
@@ -77,6 +78,16 @@ def read_frames(paths: Iterable[Path], columns: Sequence[str] | None = None) -> 
     if not parts:
         return None
     return typed(pa.concat_tables(parts, promote_options="default").to_pandas())
+
+
+def read_trip_rows(path: Path, columns: Sequence[str], trips: Iterable[str] | None = None) -> pd.DataFrame | None:
+    """Rows of the Parquet file ``path`` (``columns`` only) whose ``trip_id`` is in ``trips`` (all
+    rows when None), filtered in pyarrow; None when the file is missing or no row is left."""
+    if not path.is_file():
+        return None
+    wanted = None if trips is None else pc.field(schema.TRIP_ID).isin(pa.array(sorted(trips), type=pa.string()))
+    table = pq.read_table(path, columns=list(columns), filters=wanted)
+    return typed(table.to_pandas()) if table.num_rows else None
 
 
 @dataclass(frozen=True, slots=True)
