@@ -15,9 +15,8 @@ import numpy as np
 import pandas as pd
 from threadpoolctl import threadpool_limits
 
-from fleetfuel import schema, segment
-from fleetfuel.cycles.assemble import Selection, cycle_trace, select_pieces
-from fleetfuel.cycles.chains import EXCESS_WEIGHT
+from fleetfuel import schema
+from fleetfuel.cycles.assemble import Selection
 from fleetfuel.cycles.cluster import DutyTypeClusterer, fit_types, predict_types, type_names
 from fleetfuel.cycles.config import CyclesConfig
 from fleetfuel.cycles.labels import label_types
@@ -30,14 +29,14 @@ from fleetfuel.cycles.pieces import (
     pool_microtrips,
     safd_types,
 )
-from fleetfuel.cycles.safd import safd_difference, safd_of_trace, safd_shape
+from fleetfuel.cycles.safd import safd_shape
+from fleetfuel.cycles.search import search_type, type_search
 from fleetfuel.cycles.stats import (
     TARGET_STATS,
     additive_sums,
     floors,
     normalised_errors,
     stats_from_sums,
-    with_derived,
 )
 from fleetfuel.cycles.weights import type_weights
 from fleetfuel.errors import CycleError
@@ -164,22 +163,6 @@ def _acceptance(type_name: str, target: np.ndarray, achieved: np.ndarray, cfg: C
     )
 
 
-def _judge(
-    samples: pd.DataFrame, pool: PiecePool, option: Selection, target: np.ndarray, type_safd: np.ndarray,
-    cfg: CyclesConfig, segment_cfg: SegmentConfig,
-) -> tuple[int, float, pd.DataFrame, np.ndarray, np.ndarray, float]:
-    """A candidate on its assembled trace: (statistics off goal, score, trace, stats, SAFD, SAFD difference)."""
-    trace = cycle_trace(samples, pool, option.pieces)
-    features = segment.features_of_trace(trace["time_s"], trace["speed_m_s"], trace["grade"], cfg=segment_cfg)
-    achieved = with_derived(features)[list(TARGET_STATS)].to_numpy(dtype=np.float64)
-    err = normalised_errors(achieved, target, cfg)
-    safd = safd_of_trace(trace["time_s"], trace["speed_m_s"], cfg, segment_cfg)
-    diff = safd_difference(type_safd, safd)
-    excess = EXCESS_WEIGHT * np.sum(np.maximum(err - cfg.stat_tolerance, 0.0))
-    score = float(np.sqrt(np.mean(err**2)) + excess + cfg.safd_weight * diff)
-    return int(np.count_nonzero(err > cfg.stat_tolerance)), score, trace, achieved, safd, diff
-
-
 def _composition(type_name: str, pool: PiecePool, selection: Selection) -> pd.DataFrame:
     table = pool.table.iloc[selection.pieces]
     out = table[["piece_id", schema.MICROTRIP_ID, schema.VEHICLE_ID, "kind", "start_utc", "end_utc", "duration_s"]].copy()
@@ -281,22 +264,23 @@ def _build(logs: CycleLogs, microtrips: pd.DataFrame, cfg: CyclesConfig, segment
     samples = logs.microtrip_rows(in_pool[schema.MICROTRIP_ID].astype(str).tolist())
     pool = build_pool(samples, in_pool, step_s, type_safd, cfg, segment_cfg)
     cycles, selections, safd_type, safd_cycle, safd_diff, accept, parts = {}, {}, {}, {}, {}, [], []
+    jobs = []
     for number, name in enumerate(names):
-        target = targets.loc[name, list(TARGET_STATS)].to_numpy(dtype=np.float64)
         counts = pool.type_safd.get(name, np.zeros(0))
         if counts.sum() > 0:
             safd_type[name] = (counts / counts.sum()).reshape(safd_shape(cfg))
-        options = select_pieces(pool, name, target, cfg, number)
-        if not options:
+        target = targets.loc[name, list(TARGET_STATS)].to_numpy(dtype=np.float64)
+        jobs.append(type_search(pool, samples, name, number, target, safd_type.get(name, np.zeros(safd_shape(cfg))),
+                                cfg, segment_cfg))
+    for job, found in zip(jobs, logs.map(search_type, jobs, "type cycles"), strict=True):  # types in order
+        name = job.key
+        if found is None:
             selections[name] = Selection(pieces=np.zeros(0, dtype=np.int64), score=float("inf"), evaluated=0)
             continue
-        judged = [_judge(samples, pool, option, target, safd_type[name], cfg, segment_cfg) for option in options]
-        best = min(range(len(judged)), key=lambda k: (judged[k][0], judged[k][1]))
-        selections[name] = options[best]
-        _, _, trace, achieved, safd_cycle[name], safd_diff[name] = judged[best]
-        cycles[name] = trace
-        accept.append(_acceptance(name, target, achieved, cfg))
-        parts.append(_composition(name, pool, options[best]))
+        selections[name] = found.selection
+        cycles[name], safd_cycle[name], safd_diff[name] = found.trace, found.safd, found.safd_diff
+        accept.append(_acceptance(name, job.target, found.achieved, cfg))
+        parts.append(_composition(name, pool, found.selection))
     if not accept:
         raise CycleError(
             f"too little driving to form cycles: none of the {len(names)} duty-cycle types has "

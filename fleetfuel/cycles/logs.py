@@ -6,13 +6,14 @@ distribution over all its measured driving (additive, so it can be summed partit
 and the rows of the micro-trips the pool of pieces is cut from (bounded by
 ``CyclesConfig.pool_max_s`` per type). :class:`FrameLogs` answers both from a frame in memory;
 the engine answers them from the work folder (:mod:`fleetfuel.engine.cycle_logs`), so the main
-process never holds the fleet's samples.
+process never holds the fleet's samples. The logs also say where the types' independent cycle
+searches run (:meth:`CycleLogs.map`): one after the other here, on the engine's workers there.
 """
 
 from __future__ import annotations
 
-from collections.abc import Collection
-from typing import Protocol
+from collections.abc import Callable, Collection, Sequence
+from typing import Protocol, TypeVar
 
 import numpy as np
 import pandas as pd
@@ -24,6 +25,8 @@ from fleetfuel.segment.config import SegmentConfig
 
 POOL_COLUMNS = (schema.VEHICLE_ID, schema.TIME_UTC, schema.SPEED_M_S, schema.GRADE, *schema.SEGMENT_ID_COLUMNS)
 """The columns of the pool's rows (what pieces, their features and the cycle traces read)."""
+J = TypeVar("J")
+R = TypeVar("R")
 
 
 class CycleLogs(Protocol):
@@ -35,6 +38,10 @@ class CycleLogs(Protocol):
 
     def microtrip_rows(self, microtrip_ids: Collection[str]) -> pd.DataFrame:
         """:func:`microtrip_rows` of the fleet's segmented samples (:data:`POOL_COLUMNS`)."""
+        ...
+
+    def map(self, fn: Callable[[J], R], jobs: Sequence[J], stage: str) -> list[R]:
+        """``fn`` of each job (independent, picklable, each with a ``key``), results in job order."""
         ...
 
 
@@ -70,3 +77,6 @@ class FrameLogs:
     def microtrip_rows(self, microtrip_ids: Collection[str]) -> pd.DataFrame:
         columns = [c for c in POOL_COLUMNS if c in self.samples.columns]
         return microtrip_rows(self.samples[columns], microtrip_ids)
+
+    def map(self, fn: Callable[[J], R], jobs: Sequence[J], stage: str) -> list[R]:
+        return [fn(job) for job in jobs]

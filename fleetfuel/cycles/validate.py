@@ -27,18 +27,20 @@ its micro-trips typed by the fitted model and predicted).
 from __future__ import annotations
 
 from collections.abc import Callable
-from typing import Final
+from typing import TYPE_CHECKING, Final
 
 import numpy as np
 import numpy.typing as npt
 import pandas as pd
 
 from fleetfuel import schema
-from fleetfuel.cycles.build import CycleSet, build_cycles
 from fleetfuel.cycles.config import CyclesConfig
 from fleetfuel.cycles.logs import CycleLogs
 from fleetfuel.errors import CycleError
 from fleetfuel.segment.config import METRES_PER_KM, SegmentConfig
+
+if TYPE_CHECKING:
+    from fleetfuel.cycles.build import CycleSet
 
 FloatArray = npt.NDArray[np.float64]
 FuelModel = Callable[[FloatArray, FloatArray, FloatArray], FloatArray]
@@ -195,6 +197,8 @@ def holdout_check(
     :data:`CHECK_COLUMNS` (``scope`` ``holdout``, ``key`` the day) plus ``note``; no row when
     there is a single day or ``holdout_day`` is ``"none"``.
     """
+    from fleetfuel.cycles.build import build_cycles  # loads the clustering (see the package docstring)
+
     empty = pd.DataFrame(columns=[*CHECK_COLUMNS, "note"])
     if cfg.holdout_day == "none":
         return empty

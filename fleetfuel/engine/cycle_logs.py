@@ -6,14 +6,16 @@ kinematics trip by trip, a few small arrays back); the main process adds the par
 fleet order, so the sum does not depend on the engine. The pool's rows (at most
 ``CyclesConfig.pool_max_s`` of driving per type) are read back in the main process, partition by
 partition, only the trips holding the pool's micro-trips (rows filtered by trip id in pyarrow).
+The types' cycle searches run on the engine as well, one task per type (:mod:`fleetfuel.cycles.search`).
 The main process never holds the fleet's samples.
 """
 
 from __future__ import annotations
 
-from collections.abc import Collection
+from collections.abc import Callable, Collection, Sequence
 from dataclasses import dataclass
 from pathlib import Path
+from typing import TypeVar
 
 import numpy as np
 import pandas as pd
@@ -27,6 +29,9 @@ from fleetfuel.engine.stream import PreparedFleet
 from fleetfuel.engine.workdir import WorkFolder, read_frames, read_trip_rows
 from fleetfuel.segment.config import SegmentConfig
 
+J = TypeVar("J")
+R = TypeVar("R")
+_KEY = "partition"  # column of the partition key in the fleet's micro-trip id table
 SAFD_COLUMNS = (schema.TIME_UTC, schema.SPEED_M_S, schema.TRIP_ID, schema.MICROTRIP_ID)
 """The columns a SAFD task reads (kinematics trip by trip, micro-trip of each row)."""
 
@@ -64,19 +69,25 @@ class WorkFolderCycleLogs:
 
     def __init__(self, fleet: PreparedFleet, engine: Engine) -> None:
         self.fleet, self.engine = fleet, engine
-        self._ids: list[tuple[str, pd.DataFrame]] = []
+        parts = []
         for w in fleet.partitions:  # fleet order
             ids = read_frames([fleet.work.table("features", w.key)], (schema.MICROTRIP_ID, schema.TRIP_ID))
             if ids is not None:
-                self._ids.append((w.key, ids.astype({schema.MICROTRIP_ID: str, schema.TRIP_ID: str})))
+                parts.append(ids.astype({schema.MICROTRIP_ID: str, schema.TRIP_ID: str}).assign(**{_KEY: w.key}))
+        # One table of the fleet's micro-trips (a few hundred thousand rows for a big fleet), so a
+        # lookup is one hash pass over the fleet, not one per partition.
+        self._ids = pd.concat(parts, ignore_index=True) if parts else pd.DataFrame(columns=[schema.MICROTRIP_ID, schema.TRIP_ID, _KEY])
+
+    def _by_partition(self, mask: pd.Series) -> list[tuple[str, pd.DataFrame]]:
+        """The rows of :attr:`_ids` under ``mask``, per partition in fleet order."""
+        chosen = self._ids.loc[mask]
+        return [(str(key), rows) for key, rows in chosen.groupby(_KEY, sort=False)]
 
     def type_safd(self, types: pd.Series, cfg: CyclesConfig, segment_cfg: SegmentConfig) -> dict[str, FloatArray]:
-        jobs = []
-        for key, ids in self._ids:
-            mine = ids[schema.MICROTRIP_ID].map(types).dropna()
-            if len(mine):
-                jobs.append(SafdJob(key, str(self.fleet.work.root), tuple(ids.loc[mine.index, schema.MICROTRIP_ID]),
-                                    tuple(mine.astype(str)), cfg, segment_cfg))
+        typed_ids = self._ids[schema.MICROTRIP_ID].map(types)
+        jobs = [SafdJob(key, str(self.fleet.work.root), tuple(rows[schema.MICROTRIP_ID]),
+                        tuple(typed_ids.loc[rows.index].astype(str)), cfg, segment_cfg)
+                for key, rows in self._by_partition(typed_ids.notna())]
         parts = self.fleet.run_round(self.engine, partition_type_safd, jobs, "type safd")
         total: dict[str, FloatArray] = {}
         for part in parts:  # fleet order: the same sums whatever the engine
@@ -85,14 +96,14 @@ class WorkFolderCycleLogs:
         return dict(sorted(total.items()))
 
     def microtrip_rows(self, microtrip_ids: Collection[str]) -> pd.DataFrame:
-        wanted = set(microtrip_ids)
         parts = []
-        for key, ids in self._ids:
-            mine = ids.loc[ids[schema.MICROTRIP_ID].isin(wanted)]
-            if len(mine):
-                rows = read_trip_rows(self.fleet.work.table("samples", key), POOL_COLUMNS, set(mine[schema.TRIP_ID]))
-                if rows is not None:
-                    parts.append(microtrip_rows(rows, mine[schema.MICROTRIP_ID]))
+        for key, mine in self._by_partition(self._ids[schema.MICROTRIP_ID].isin(pd.Index(list(microtrip_ids)))):
+            rows = read_trip_rows(self.fleet.work.table("samples", key), POOL_COLUMNS, set(mine[schema.TRIP_ID]))
+            if rows is not None:
+                parts.append(microtrip_rows(rows, mine[schema.MICROTRIP_ID]))
         if not parts:
             return pd.DataFrame({c: pd.Series([], dtype="string") for c in POOL_COLUMNS})
         return pd.concat(parts, ignore_index=True)
+
+    def map(self, fn: Callable[[J], R], jobs: Sequence[J], stage: str) -> list[R]:
+        return self.fleet.run_round(self.engine, fn, list(jobs), stage)

@@ -198,6 +198,10 @@ class ProcessEngine(Engine):
         self.workers = workers
         self._pool = ProcessPoolExecutor(max_workers=workers, mp_context=get_context("spawn"),
                                          initializer=_init_process)
+        # Start the workers now: each takes seconds to load fleetfuel and its libraries, which it
+        # does while the caller goes on (e.g. loading the pipeline itself).
+        for number in range(workers):
+            self._pool.submit(_ready, number)
 
     def close(self) -> None:
         self._pool.shutdown(wait=True, cancel_futures=True)

@@ -84,6 +84,68 @@ def window_cuts(times_ns: IntArray, speed_m_s: FloatArray, rest_s: float, stop_s
     return out[out > t[0]]
 
 
+class CutFinder:
+    """:func:`window_cuts` fed in time-ordered chunks, holding only the standstill run still open.
+
+    Feed chunks whose time ranges follow one another (every time of a chunk at or after every
+    time of the chunks before, ties within one chunk, in the order :func:`window_cuts` would
+    sort them); :meth:`cuts` then equals :func:`window_cuts` of all chunks at once. Between
+    chunks the finder keeps the last sample, or the samples of the standstill run that reaches
+    the end of the data so far (its middle is only known when it ends), so its memory is one
+    chunk plus the longest rest logged at standstill.
+    """
+
+    def __init__(self, rest_s: float, stop_speed_m_s: float) -> None:
+        self.rest_ns = int(rest_s * NS_PER_S)
+        self.stop_speed_m_s = stop_speed_m_s
+        self._found: list[IntArray] = []
+        self._carry_t = np.zeros(0, dtype=np.int64)
+        self._carry_still = False  # the carried samples are an open standstill run
+        self._first: int | None = None
+        self._count = 0
+
+    def feed(self, times_ns: IntArray, speed_m_s: FloatArray) -> None:
+        """Add one chunk (any order within it; see the class docstring)."""
+        order = np.argsort(times_ns, kind="stable")
+        t_new = np.asarray(times_ns, dtype=np.int64)[order]
+        if t_new.size == 0:
+            return
+        v_new = np.asarray(speed_m_s, dtype=np.float64)[order]
+        self._first = int(t_new[0]) if self._first is None else self._first
+        self._count += t_new.size
+        carried = self._carry_t.size
+        t = np.r_[self._carry_t, t_new]
+        still = np.r_[np.full(carried, self._carry_still), np.isfinite(v_new) & (v_new < self.stop_speed_m_s)]
+        gap = np.flatnonzero(np.diff(t) >= self.rest_ns) + 1  # first sample after a long gap
+        self._found.append(t[gap])
+        after_gap = np.zeros(t.size, dtype=bool)
+        after_gap[gap] = True
+        begins = still & (np.r_[True, ~still[:-1]] | after_gap)  # a standstill run never spans a gap
+        ends = still & (np.r_[~still[1:], True] | np.r_[after_gap[1:], False])
+        first, last = np.flatnonzero(begins), np.flatnonzero(ends)
+        closed = last < t.size - 1  # a run reaching the end of the data may go on in the next chunk
+        self._found.append(self._middles(t, first[closed], last[closed]))
+        if still[-1]:
+            self._carry_t, self._carry_still = t[first[-1]:], True
+        else:
+            self._carry_t, self._carry_still = t[-1:], False
+
+    def _middles(self, t: IntArray, first: IntArray, last: IntArray) -> IntArray:
+        long_run = (t[last] - t[first]) >= self.rest_ns
+        return t[np.searchsorted(t, (t[first[long_run]] + t[last[long_run]]) // 2, side="left")]
+
+    def cuts(self) -> IntArray:
+        """The cut times of everything fed (see :func:`window_cuts`)."""
+        if self._count < 2 or self._first is None:
+            return np.zeros(0, dtype=np.int64)
+        found = list(self._found)
+        if self._carry_still:  # the run open at the end of the data ends there
+            t = self._carry_t
+            found.append(self._middles(t, np.zeros(1, dtype=np.int64), np.array([t.size - 1])))
+        out = np.unique(np.concatenate(found)) if found else np.zeros(0, dtype=np.int64)
+        return out[out > self._first]
+
+
 def window_of(times_ns: IntArray, cuts: IntArray) -> IntArray:
     """Window number (0..len(cuts)) of each time (see :func:`window_cuts`)."""
     return np.searchsorted(cuts, times_ns, side="right").astype(np.int64)

@@ -6,8 +6,8 @@ and returns a few facts. Nothing large travels between the driver and the worker
 ``read_file``
     one input path (every CSV member of a zip): raw canonical rows, reader drops, account facts;
 ``plan_vehicle``
-    one vehicle: its raw times and speeds from every file, cut into windows
-    (:mod:`fleetfuel.engine.partition`);
+    one vehicle: its raw times and speeds from every file, one row group at a time, cut into
+    windows (:mod:`fleetfuel.engine.partition`);
 ``clean_partition``
     one window: clean (:func:`fleetfuel.clean.clean_vehicle`), segment into periods, trips and
     micro-trips, micro-trip features and trip table;
@@ -34,7 +34,7 @@ import pyarrow.parquet as pq
 from fleetfuel import clean, schema, segment
 from fleetfuel.clean.config import CleanConfig
 from fleetfuel.cycles.validate import microtrip_consumption
-from fleetfuel.engine.partition import partition_key, window_cuts, window_of
+from fleetfuel.engine.partition import CutFinder, IntArray, partition_key, window_of
 from fleetfuel.engine.workdir import WorkFolder, read_frames, read_trip_rows, typed, write_frame, write_json
 from fleetfuel.ingest.base import empty_raw_frame
 from fleetfuel.ingest.config import IngestConfig
@@ -111,27 +111,83 @@ class Window:
     rows: int
 
 
+def _vehicle_group(files: dict[str, pq.ParquetFile], path: str, group: int, vehicle_id: str | None,
+                   columns: list[str]) -> pa.Table:
+    """Row group ``group`` of raw file ``path``: the rows of ``vehicle_id``, ``columns`` only."""
+    if path not in files:  # keep the file last read open (the passes read files in turn)
+        files.clear()
+        files[path] = pq.ParquetFile(path)
+    table = files[path].read_row_group(group, columns=[*columns, schema.VEHICLE_ID])
+    ids = table.column(schema.VEHICLE_ID)
+    mine = pc.is_null(ids) if vehicle_id is None else pc.equal(ids, pa.scalar(vehicle_id, ids.type))
+    return table.filter(mine).select(columns)
+
+
+def _times_ns(table: pa.Table) -> IntArray:
+    """The (valid) sample times of ``table`` as int64 nanoseconds since the epoch."""
+    times = table.column(schema.TIME_UTC).cast(_TIME_TYPE).cast(pa.int64())
+    return np.asarray(times.to_numpy(zero_copy_only=False), dtype=np.int64)
+
+
+def _time_clusters(spans: list[tuple[int, int, int]]) -> list[list[int]]:
+    """Row groups (``spans[k]`` = (first, last time, k) in batch order) gathered into runs of
+    overlapping time ranges, in time order; each run's groups in batch order."""
+    clusters: list[list[int]] = []
+    end = None
+    for lo, hi, k in sorted(spans):
+        if end is None or lo > end:
+            clusters.append([k])
+            end = hi
+        else:
+            clusters[-1].append(k)
+            end = max(end, hi)
+    return [sorted(c) for c in clusters]
+
+
 def plan_vehicle(job: PlanJob) -> list[Window]:
-    """The windows of one vehicle (see :func:`fleetfuel.engine.partition.window_cuts`)."""
-    cols = [schema.TIME_UTC, schema.SPEED_M_S]
-    tables = [pq.read_table(p, columns=cols, filters=_vehicle_filter(job.vehicle_id)) for p in job.raw]
-    table = pa.concat_tables(tables) if tables else pa.table({c: [] for c in cols})
-    valid = pc.is_valid(table.column(schema.TIME_UTC))
-    untimed = table.num_rows - int(pc.sum(valid).as_py() or 0)
-    table = table.filter(valid)
-    t_ns = table.column(schema.TIME_UTC).cast(_TIME_TYPE).cast(pa.int64()).to_numpy(zero_copy_only=False)
-    t_ns = np.asarray(t_ns, dtype=np.int64)
-    speed = np.asarray(table.column(schema.SPEED_M_S).to_numpy(zero_copy_only=False), dtype=np.float64)
-    cuts = window_cuts(t_ns, speed, job.rest_s, job.stop_speed_m_s) if job.vehicle_id is not None else np.zeros(0, np.int64)
-    if t_ns.size == 0:
+    """The windows of one vehicle (see :func:`fleetfuel.engine.partition.window_cuts`).
+
+    Streams the vehicle's raw rows one row group at a time, in three passes: each group's time
+    range; the cuts, fed to :class:`~fleetfuel.engine.partition.CutFinder` in time order (groups
+    whose ranges overlap are read together); the rows and first time of each window. Memory is
+    one row group (:data:`~fleetfuel.engine.workdir.ROW_GROUP_ROWS` rows) when the logs run
+    forward in time, whatever the length of the history; logs out of time order cost up to
+    the overlapping groups at once.
+    """
+    files: dict[str, pq.ParquetFile] = {}
+    groups = [(path, g) for path in job.raw for g in range(pq.ParquetFile(path).metadata.num_row_groups)]
+    time_only = [schema.TIME_UTC]
+    untimed, spans = 0, []
+    for k, (path, g) in enumerate(groups):
+        table = _vehicle_group(files, path, g, job.vehicle_id, time_only)
+        valid = pc.is_valid(table.column(schema.TIME_UTC))
+        untimed += table.num_rows - int(pc.sum(valid).as_py() or 0)
+        t_ns = _times_ns(table.filter(valid))
+        if t_ns.size:
+            spans.append((int(t_ns.min()), int(t_ns.max()), k))
+    if not spans:
         return [Window(partition_key(job.vehicle_id, None), job.vehicle_id, job.raw, None, None, True, untimed)]
-    number = window_of(t_ns, cuts)
-    rows = np.bincount(number, minlength=cuts.size + 1)
-    first = pd.Series(t_ns).groupby(number).min()
+    finder = CutFinder(job.rest_s, job.stop_speed_m_s)
+    if job.vehicle_id is not None:  # rows without a vehicle are one window
+        for cluster in _time_clusters(spans):
+            parts = [_vehicle_group(files, *groups[k], job.vehicle_id, [schema.TIME_UTC, schema.SPEED_M_S])
+                     for k in cluster]
+            table = pa.concat_tables(parts)
+            table = table.filter(pc.is_valid(table.column(schema.TIME_UTC)))
+            speed = np.asarray(table.column(schema.SPEED_M_S).to_numpy(zero_copy_only=False), dtype=np.float64)
+            finder.feed(_times_ns(table), speed)
+    cuts = finder.cuts()
+    rows = np.zeros(cuts.size + 1, dtype=np.int64)
+    first = np.full(cuts.size + 1, np.iinfo(np.int64).max, dtype=np.int64)
+    for _, _, k in spans:
+        t_ns = _times_ns(_vehicle_group(files, *groups[k], job.vehicle_id, time_only).drop_null())
+        number = window_of(t_ns, cuts)
+        rows += np.bincount(number, minlength=cuts.size + 1)
+        np.minimum.at(first, number, t_ns)
     bounds = [None, *cuts.tolist(), None]
     out = []
     for k in range(cuts.size + 1):
-        start = pd.Timestamp(int(first.loc[k]), tz="UTC") if k in first.index else None
+        start = pd.Timestamp(int(first[k]), tz="UTC") if rows[k] else None
         extra = untimed if k == 0 else 0
         out.append(Window(partition_key(job.vehicle_id, start), job.vehicle_id, job.raw, bounds[k], bounds[k + 1],
                           k == 0, int(rows[k]) + extra))

@@ -11,6 +11,10 @@ import pytest
 
 from fleetfuel import pipeline, schema, segment
 from fleetfuel.cycles import TARGET_STATS, CyclesConfig, build_cycles
+from fleetfuel.cycles.assemble import _problem, cycle_trace
+from fleetfuel.cycles.logs import FrameLogs
+from fleetfuel.cycles.pieces import build_pool, pool_microtrips, safd_types
+from fleetfuel.cycles.search import type_search
 from fleetfuel.cycles.stats import with_derived
 from fleetfuel.engine.workdir import read_frames
 from fleetfuel.report.cycle_outputs import write_cycle_outputs
@@ -160,3 +164,29 @@ def test_same_input_same_summary_bytes(run: pipeline.CyclesResult, samples: pd.D
                             plots=False)
     for name in ("types.csv", "acceptance.csv", "composition.csv", "weights.csv", "cycle_T1.csv"):
         assert (a / name).read_bytes() == (b / name).read_bytes(), name
+
+
+def test_a_type_job_searches_the_same_problem_as_the_whole_pool(run: pipeline.CyclesResult, samples: pd.DataFrame) -> None:
+    # A type's search job carries only its pieces and the rows they span (fleetfuel.cycles.search);
+    # the search must see the same arrays in the same order as on the whole pool, and each piece
+    # the same trace, so where the job runs cannot change the cycle.
+    cfg, seg_cfg = CyclesConfig(), segment.SegmentConfig()
+    table = run.cycles.microtrips
+    in_pool = table.loc[pool_microtrips(table, cfg)]
+    rows = FrameLogs(samples).microtrip_rows(in_pool[schema.MICROTRIP_ID].astype(str).tolist())
+    type_safd = FrameLogs(samples).type_safd(safd_types(table), cfg, seg_cfg)
+    pool = build_pool(rows, in_pool, run.cycles.step_s, type_safd, cfg, seg_cfg)
+    target = np.zeros(len(TARGET_STATS))
+    for number, name in enumerate(run.cycles.types["type"]):
+        job = type_search(pool, rows, name, number, target, np.zeros(1), cfg, seg_cfg)
+        whole, mine = _problem(pool, name, target, cfg), _problem(job.pool, name, target, cfg)
+        np.testing.assert_array_equal(job.pool_rows[mine.idx], whole.idx)
+        for field in ("kind", "entry", "exit", "duration", "sums", "hist", "target_p"):
+            np.testing.assert_array_equal(getattr(mine, field), getattr(whole, field), err_msg=field)
+        for piece in range(0, len(job.pool_rows), max(1, len(job.pool_rows) // 25)):  # a spread of pieces
+            pd.testing.assert_frame_equal(cycle_trace(job.samples, job.pool, np.array([piece])),
+                                          cycle_trace(rows, pool, job.pool_rows[[piece]]))
+    # the chosen pieces come back as rows of the whole pool: each cycle's pieces are of its type
+    comp = run.cycles.composition.merge(pool.table[["piece_id", "type"]], on="piece_id", suffixes=("", "_in_pool"))
+    assert len(comp) == len(run.cycles.composition)
+    assert (comp["type"] == comp["type_in_pool"]).all()

@@ -12,15 +12,18 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
+import pyarrow as pa
+import pyarrow.parquet as pq
 import pytest
 from fleet_files import write_tiny_fleet
 
-from fleetfuel import pipeline, segment
+from fleetfuel import pipeline, schema, segment
 from fleetfuel.config import RunConfig
 from fleetfuel.engine.config import EngineConfig
 from fleetfuel.engine.executors import Engine, make_engine
-from fleetfuel.engine.partition import window_cuts, window_of
+from fleetfuel.engine.partition import CutFinder, window_cuts, window_of
 from fleetfuel.engine.stream import prepare_fleet
+from fleetfuel.engine.tasks import PlanJob, plan_vehicle
 from fleetfuel.errors import ConfigError
 
 HOUR_NS = 3_600 * 10**9
@@ -68,6 +71,36 @@ def test_window_cuts_at_long_gaps_and_long_standstills() -> None:
     v = np.where((t > 500 * 10**9) & (t < 9 * HOUR_NS + 100 * 10**9), 0.0, 5.0)
     assert window_cuts(t, v, rest_s=4 * 3600, stop_speed_m_s=0.3).tolist() == [9 * HOUR_NS]
     assert np.bincount(window_of(still, cuts)).tolist() == [int((still < cuts[0]).sum()), int((still >= cuts[0]).sum())]
+
+
+def _random_log(rng: np.random.Generator) -> tuple[np.ndarray, np.ndarray]:
+    """Shuffled sample times [ns] with repeats, gaps of 1 s to 8 h and long standstills (some NaN speeds)."""
+    steps = rng.choice([0, 1, 1, 1, 5, 600, 3 * 3600, 5 * 3600, 8 * 3600], size=int(rng.integers(1, 400)))
+    t = np.cumsum(steps).astype(np.int64) * 10**9
+    runs = rng.integers(1, 120, size=t.size)  # run lengths in samples, moving and still in turn
+    state = np.repeat(np.arange(runs.size) % 2 == 0, runs)[: t.size]
+    v = np.where(state, 0.0, rng.uniform(0.5, 25.0, t.size))
+    v[rng.random(t.size) < 0.05] = np.nan
+    order = rng.permutation(t.size)
+    return t[order], v[order]
+
+
+@pytest.mark.parametrize("seed", range(60))
+def test_cut_finder_fed_in_chunks_equals_window_cuts(seed: int) -> None:
+    # The streaming planner (one row group at a time) must cut exactly where the whole-history
+    # rule cuts; rest 4 h, stop speed 0.3 m/s as the segment defaults (common practice, no source).
+    rng = np.random.default_rng(seed)
+    t, v = _random_log(rng)
+    want = window_cuts(t, v, rest_s=4 * 3600, stop_speed_m_s=0.3)
+    order = np.argsort(t, kind="stable")
+    ts = t[order]
+    changes = np.flatnonzero(np.diff(ts) > 0) + 1  # chunk edges never split equal times
+    edges = np.sort(rng.choice(changes, size=min(changes.size, int(rng.integers(0, 12))), replace=False))
+    finder = CutFinder(rest_s=4 * 3600, stop_speed_m_s=0.3)
+    for a, b in zip(np.r_[0, edges], np.r_[edges, ts.size], strict=True):
+        chunk = np.sort(order[a:b])  # the chunk's rows in log order (which orders equal times)
+        finder.feed(t[chunk], v[chunk])
+    np.testing.assert_array_equal(finder.cuts(), want)
 
 
 def test_local_engine_accounts_for_every_row(local: dict[str, pd.DataFrame]) -> None:
@@ -203,3 +236,40 @@ def test_warm_up_reaches_every_worker() -> None:
         assert local.warm_up() == 1 and local.records == []
     with make_engine(EngineConfig(kind="processes", workers=2)) as pool:
         assert pool.warm_up() == 2 and pool.records == []
+
+
+def test_plan_streams_row_groups_to_the_whole_history_windows(tmp_path: Path) -> None:
+    # plan_vehicle reads one row group at a time; its windows must be those of window_cuts over
+    # the vehicle's whole history: files in batch order, one overlapping another in time,
+    # another vehicle interleaved, rows without a time (they ride in the first window).
+    rng = np.random.default_rng(3)
+    t, v = _random_log(rng)
+    t = t + 1_700_000_000 * 10**9
+    times = pd.Series(pd.to_datetime(t, utc=True))
+    times[rng.random(t.size) < 0.03] = pd.NaT
+    frame = pd.DataFrame({schema.TIME_UTC: times, schema.SPEED_M_S: v,
+                          schema.VEHICLE_ID: np.where(rng.random(t.size) < 0.8, "VAN-7", "VAN-8")})
+    frame[schema.VEHICLE_ID] = frame[schema.VEHICLE_ID].astype("string")
+    paths = []
+    for n, part in enumerate(np.array_split(np.arange(len(frame)), 3)):
+        path = tmp_path / f"{n}.parquet"
+        pq.write_table(pa.Table.from_pandas(frame.iloc[part], preserve_index=False), path, row_group_size=17)
+        paths.append(str(path))
+    got = plan_vehicle(PlanJob("VAN-7", tuple(paths), 4 * 3600, 0.3))
+    mine = frame.loc[frame[schema.VEHICLE_ID] == "VAN-7"]
+    timed = mine.dropna(subset=[schema.TIME_UTC])
+    t_ns = timed[schema.TIME_UTC].astype("int64").to_numpy()
+    cuts = window_cuts(t_ns, timed[schema.SPEED_M_S].to_numpy(), 4 * 3600, 0.3)
+    number = window_of(t_ns, cuts)
+    assert cuts.size > 3  # the log has rests to cut at
+    assert [w.lo_ns for w in got] == [None, *cuts.tolist()]
+    assert [w.hi_ns for w in got] == [*cuts.tolist(), None]
+    rows = np.bincount(number, minlength=cuts.size + 1)
+    rows[0] += len(mine) - len(timed)
+    assert [w.rows for w in got] == rows.tolist()
+    assert sum(w.rows for w in got) == len(mine)  # every row of the vehicle in one window
+    firsts = pd.Series(t_ns).groupby(number).min()
+    assert [w.key.split("/")[1] for w in got] == [
+        pd.Timestamp(int(firsts[k]), tz="UTC").strftime("%Y%m%dT%H%M%SZ") if k in firsts.index else "none"
+        for k in range(cuts.size + 1)
+    ]
