@@ -210,16 +210,17 @@ def _cmd_forecast(args: argparse.Namespace) -> int:
     from pathlib import Path
 
     from fleetfuel import pipeline
+    from fleetfuel.engine.executors import make_engine
     from fleetfuel.report.outputs import write_outputs
     from fleetfuel.report.progress import ProgressBar
 
     cfg = _run_config(args)
     out = Path(args.out)
     work = Path(args.work) if args.work else out / ".work"
-    with ProgressBar(label="forecast", quiet=args.quiet) as bar:
+    with ProgressBar(label="forecast", quiet=args.quiet) as bar, make_engine(cfg.engine) as engine:
         result = pipeline.forecast_paths(args.paths, cfg, full=args.full, profile=args.profile,
-                                         routes_file=args.routes, work_dir=work, progress=bar.update)
-        written = write_outputs(result, out, work, on_progress=bar.update)
+                                         routes_file=args.routes, work_dir=work, progress=bar.update, engine=engine)
+        written = write_outputs(result, out, work, on_progress=bar.update, map_figures=engine.figure_map())
     for failed, error in result.failures:
         print(f"fleetfuel: {failed}: {error}", file=sys.stderr)
     for row in result.fleet_ranking.loc[result.fleet_ranking["rank"] == 1].itertuples(index=False):

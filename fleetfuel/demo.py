@@ -71,7 +71,7 @@ def run_demo(out: Path, *, progress: Callable[[int, int, str], None] | None = No
     ``data_quality.json`` (the ingest account).
     """
     # The engine first: its workers load fleetfuel while this process loads the pipeline (the
-    # imports below take seconds).
+    # imports below take seconds), then they render the plots too.
     with make_engine(demo_engine()) as engine:
         from fleetfuel import pipeline
         from fleetfuel.report import quality
@@ -83,7 +83,7 @@ def run_demo(out: Path, *, progress: Callable[[int, int, str], None] | None = No
         work = out / WORK_FOLDER
         result = pipeline.forecast_paths([data_dir("sample_logs")], demo_config(), work_dir=work, progress=progress,
                                          engine=engine)
-    written = write_outputs(result, out, work, on_progress=progress)
+        written = write_outputs(result, out, work, on_progress=progress, map_figures=engine.figure_map())
     if result.account is not None:
         written += [
             write_text_atomic(out / "data_quality.txt", quality.account_text(result.account) + "\n"),

@@ -272,7 +272,12 @@ def _build(logs: CycleLogs, microtrips: pd.DataFrame, cfg: CyclesConfig, segment
         target = targets.loc[name, list(TARGET_STATS)].to_numpy(dtype=np.float64)
         jobs.append(type_search(pool, samples, name, number, target, safd_type.get(name, np.zeros(safd_shape(cfg))),
                                 cfg, segment_cfg))
-    for job, found in zip(jobs, logs.map(search_type, jobs, "type cycles"), strict=True):  # types in order
+    # The biggest pools first, so that parallel workers finish together (a search's time grows with
+    # its type's pieces); results are taken back in type order.
+    longest_first = sorted(range(len(jobs)), key=lambda k: (-len(jobs[k].pool.table), k))
+    searched = dict(zip(longest_first, logs.map(search_type, [jobs[k] for k in longest_first], "type cycles"),
+                        strict=True))
+    for job, found in zip(jobs, (searched[k] for k in range(len(jobs))), strict=True):  # types in order
         name = job.key
         if found is None:
             selections[name] = Selection(pieces=np.zeros(0, dtype=np.int64), score=float("inf"), evaluated=0)

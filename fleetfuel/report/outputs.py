@@ -25,6 +25,9 @@ from fleetfuel.report.tables import csv_bytes, fleet_ranking_table, parquet_byte
 from fleetfuel.report.view import ReportView, report_view
 from fleetfuel.report.xlsx import workbook_bytes
 
+FigureMap = Callable[[Callable[[Figure], bytes], list[Figure], list[str]], list[bytes]]
+"""``fn(figures, names)``: ``[fn(f) for f in figures]``, e.g. on an engine's workers (figures pickle)."""
+
 ROUTE_FORECAST_CSV: Final = "route_forecast.csv"
 ROUTE_FORECAST_PARQUET: Final = "route_forecast.parquet"
 FLEET_RANKING_CSV: Final = "fleet_ranking.csv"
@@ -85,11 +88,20 @@ def _plot_file(name: str) -> str:
     return PLOT_FILES.get(name) or f"plot_{_safe_name(name)}.png"
 
 
-def _jobs(view: ReportView, step: Callable[[str], None]) -> list[tuple[str, Callable[[], bytes]]]:
-    pngs: dict[str, bytes] = {}
-    for name, fig in figures(view).items():
-        pngs[name] = plots.png_bytes(fig)
-        step(name)
+def _jobs(view: ReportView, step: Callable[[str], None], map_figures: FigureMap | None
+          ) -> list[tuple[str, Callable[[], bytes]]]:
+    figs = figures(view)
+    names = list(figs)
+    if map_figures is None:
+        rendered = []
+        for name in names:
+            rendered.append(plots.png_bytes(figs[name]))
+            step(name)
+    else:
+        rendered = map_figures(plots.png_bytes, [figs[n] for n in names], names)
+        for name in names:
+            step(name)
+    pngs = dict(zip(names, rendered, strict=True))
     route_table = route_forecast_table(view.route_forecast)
     ranking_table = fleet_ranking_table(view.fleet_ranking)
     jobs: list[tuple[str, Callable[[], bytes]]] = [
@@ -117,7 +129,8 @@ def _move(staged: list[Path], out_dir: Path) -> list[Path]:
 
 
 def write_outputs(
-    result: Any, out_dir: Path, work_dir: Path, *, on_progress: ProgressCallback | None = None
+    result: Any, out_dir: Path, work_dir: Path, *, on_progress: ProgressCallback | None = None,
+    map_figures: FigureMap | None = None,
 ) -> list[Path]:
     """Write every output of ``result`` into ``out_dir``; all of them or none.
 
@@ -133,6 +146,9 @@ def write_outputs(
     on_progress : callable, optional
         ``on_progress(done, total, note)`` after each figure and file, e.g.
         :meth:`fleetfuel.report.progress.ProgressBar.update`.
+    map_figures : callable, optional
+        Where the figures are rendered to PNG (:data:`FigureMap`; the jobs pass an engine's
+        ``map``, so the plots render side by side); default here, one after the other.
 
     Returns
     -------
@@ -163,7 +179,7 @@ def write_outputs(
 
     try:
         staged = []
-        for name, build in _jobs(view, step):
+        for name, build in _jobs(view, step, map_figures):
             path = stage / name
             try:
                 path.write_bytes(build())

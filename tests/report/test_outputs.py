@@ -48,6 +48,20 @@ def test_outputs_are_byte_identical_on_a_rerun(result, tmp_path: Path) -> None:
             assert a.read_bytes() == b.read_bytes(), a.name
 
 
+def test_plots_rendered_in_worker_processes_are_the_same_bytes(result, tmp_path: Path) -> None:
+    # The jobs render the figures on the engine's workers (figures pickled there and back).
+    from fleetfuel.engine.executors import ProcessEngine
+
+    here = outputs.write_outputs(result, tmp_path / "a", tmp_path / "w")
+    with ProcessEngine(2) as engine:
+        there = outputs.write_outputs(result, tmp_path / "b", tmp_path / "w", map_figures=engine.figure_map())
+        assert {r.stage for r in engine.records} == {"plots"}
+    assert [p.name for p in here] == [p.name for p in there]
+    for a, b in zip(here, there, strict=True):
+        if a.suffix in (".png", ".html"):
+            assert a.read_bytes() == b.read_bytes(), a.name
+
+
 def test_failed_run_leaves_no_new_outputs(result, tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
     out = tmp_path / "out"
     outputs.write_outputs(result, out, tmp_path / "w")
