@@ -22,7 +22,6 @@ from fleetfuel.cycles.config import CyclesConfig
 from fleetfuel.cycles.labels import label_types
 from fleetfuel.cycles.logs import CycleLogs, FrameLogs
 from fleetfuel.cycles.pieces import (
-    PiecePool,
     build_pool,
     eligible_microtrips,
     measured_microtrips,
@@ -163,8 +162,8 @@ def _acceptance(type_name: str, target: np.ndarray, achieved: np.ndarray, cfg: C
     )
 
 
-def _composition(type_name: str, pool: PiecePool, selection: Selection) -> pd.DataFrame:
-    table = pool.table.iloc[selection.pieces]
+def _composition(type_name: str, pieces: pd.DataFrame, selection: Selection) -> pd.DataFrame:
+    table = pieces.iloc[selection.pieces]
     out = table[["piece_id", schema.MICROTRIP_ID, schema.VEHICLE_ID, "kind", "start_utc", "end_utc", "duration_s"]].copy()
     out.insert(0, "order", np.arange(1, len(out) + 1))
     out.insert(0, "type", type_name)
@@ -272,6 +271,8 @@ def _build(logs: CycleLogs, microtrips: pd.DataFrame, cfg: CyclesConfig, segment
         target = targets.loc[name, list(TARGET_STATS)].to_numpy(dtype=np.float64)
         jobs.append(type_search(pool, samples, name, number, target, safd_type.get(name, np.zeros(safd_shape(cfg))),
                                 cfg, segment_cfg))
+    pieces = pool.table
+    del pool, samples  # the jobs hold each type's share of the pool's arrays and rows
     # The biggest pools first, so that parallel workers finish together (a search's time grows with
     # its type's pieces); results are taken back in type order.
     longest_first = sorted(range(len(jobs)), key=lambda k: (-len(jobs[k].pool.table), k))
@@ -285,7 +286,7 @@ def _build(logs: CycleLogs, microtrips: pd.DataFrame, cfg: CyclesConfig, segment
         selections[name] = found.selection
         cycles[name], safd_cycle[name], safd_diff[name] = found.trace, found.safd, found.safd_diff
         accept.append(_acceptance(name, job.target, found.achieved, cfg))
-        parts.append(_composition(name, pool, found.selection))
+        parts.append(_composition(name, pieces, found.selection))
     if not accept:
         raise CycleError(
             f"too little driving to form cycles: none of the {len(names)} duty-cycle types has "
