@@ -131,7 +131,15 @@ def _ready(_: int) -> str:
     return worker_name()
 
 
-WARM_UP_ROUNDS = 10  # our choice: ten rounds of tiny tasks reach every worker of a local pool
+def _ready_and_hold(_: int) -> str:
+    """:func:`_ready`, then a short hold, so that one ready worker cannot answer a whole round."""
+    name = _ready(0)
+    time.sleep(WARM_UP_HOLD_S)
+    return name
+
+
+WARM_UP_HOLD_S = 0.05  # our choice: long beside a task hand-over, short beside start-up
+WARM_UP_TIMEOUT_S = 120.0  # our choice: a worker that has not loaded fleetfuel in 2 min is stuck
 
 
 class Engine:
@@ -157,10 +165,9 @@ class Engine:
         number of workers reached. Benchmarks call it so that they time the work, not start-up
         (which a long run pays once). Tasks need not call it."""
         seen: set[str] = set()
-        for _ in range(WARM_UP_ROUNDS):
-            seen.update(self._map_quiet(_ready, list(range(self.workers))))
-            if len(seen) >= self.workers:
-                break
+        deadline = time.monotonic() + WARM_UP_TIMEOUT_S
+        while len(seen) < self.workers and time.monotonic() < deadline:  # rounds until each has answered
+            seen.update(self._map_quiet(_ready_and_hold, list(range(self.workers))))
         return len(seen)
 
     def _map_quiet(self, fn: Callable[[int], str], items: list[int]) -> list[str]:
