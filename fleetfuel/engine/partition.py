@@ -63,25 +63,9 @@ def window_cuts(times_ns: IntArray, speed_m_s: FloatArray, rest_s: float, stop_s
         Sorted cut times: window ``k`` holds the samples with ``cuts[k-1] <= t < cuts[k]`` (the
         first window is open below, the last open above).
     """
-    order = np.argsort(times_ns, kind="stable")
-    t = np.asarray(times_ns, dtype=np.int64)[order]
-    v = np.asarray(speed_m_s, dtype=np.float64)[order]
-    if t.size < 2:
-        return np.zeros(0, dtype=np.int64)
-    rest_ns = int(rest_s * NS_PER_S)
-    gap = np.flatnonzero(np.diff(t) >= rest_ns) + 1  # first sample after a long gap
-    cuts = [t[gap]]
-    still = np.isfinite(v) & (v < stop_speed_m_s)
-    after_gap = np.zeros(t.size, dtype=bool)
-    after_gap[gap] = True
-    begins = still & (np.r_[True, ~still[:-1]] | after_gap)  # a standstill run never spans a gap
-    ends = still & (np.r_[~still[1:], True] | np.r_[after_gap[1:], False])
-    first, last = np.flatnonzero(begins), np.flatnonzero(ends)
-    long_run = (t[last] - t[first]) >= rest_ns
-    middle = np.searchsorted(t, (t[first[long_run]] + t[last[long_run]]) // 2, side="left")
-    cuts.append(t[middle])
-    out = np.unique(np.concatenate(cuts))
-    return out[out > t[0]]
+    finder = CutFinder(rest_s, stop_speed_m_s)
+    finder.feed(times_ns, speed_m_s)
+    return finder.cuts()
 
 
 class CutFinder:

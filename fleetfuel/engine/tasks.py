@@ -118,13 +118,11 @@ def _vehicle_group(files: dict[str, pq.ParquetFile], path: str, group: int, vehi
         files.clear()
         files[path] = pq.ParquetFile(path)
     table = files[path].read_row_group(group, columns=[*columns, schema.VEHICLE_ID])
-    ids = table.column(schema.VEHICLE_ID)
-    mine = pc.is_null(ids) if vehicle_id is None else pc.equal(ids, pa.scalar(vehicle_id, ids.type))
-    return table.filter(mine).select(columns)
+    return table.filter(_vehicle_filter(vehicle_id)).select(columns)
 
 
 def _times_ns(table: pa.Table) -> IntArray:
-    """The (valid) sample times of ``table`` as int64 nanoseconds since the epoch."""
+    """The sample times of ``table`` (no missing ones) as int64 nanoseconds since the epoch."""
     times = table.column(schema.TIME_UTC).cast(_TIME_TYPE).cast(pa.int64())
     return np.asarray(times.to_numpy(zero_copy_only=False), dtype=np.int64)
 

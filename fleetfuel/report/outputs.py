@@ -88,20 +88,19 @@ def _plot_file(name: str) -> str:
     return PLOT_FILES.get(name) or f"plot_{_safe_name(name)}.png"
 
 
+def _render_here(fn: Callable[[Figure], bytes], figs: list[Figure], names: list[str]) -> list[bytes]:
+    """:data:`FigureMap` in this process, one figure after the other."""
+    return [fn(fig) for fig in figs]
+
+
 def _jobs(view: ReportView, step: Callable[[str], None], map_figures: FigureMap | None
           ) -> list[tuple[str, Callable[[], bytes]]]:
     figs = figures(view)
     names = list(figs)
-    if map_figures is None:
-        rendered = []
-        for name in names:
-            rendered.append(plots.png_bytes(figs[name]))
-            step(name)
-    else:
-        rendered = map_figures(plots.png_bytes, [figs[n] for n in names], names)
-        for name in names:
-            step(name)
-    pngs = dict(zip(names, rendered, strict=True))
+    render = map_figures or _render_here
+    pngs = dict(zip(names, render(plots.png_bytes, [figs[n] for n in names], names), strict=True))
+    for name in names:
+        step(name)
     route_table = route_forecast_table(view.route_forecast)
     ranking_table = fleet_ranking_table(view.fleet_ranking)
     jobs: list[tuple[str, Callable[[], bytes]]] = [

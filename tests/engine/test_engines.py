@@ -85,13 +85,35 @@ def _random_log(rng: np.random.Generator) -> tuple[np.ndarray, np.ndarray]:
     return t[order], v[order]
 
 
+def _whole_history_cuts(times_ns: np.ndarray, speed_m_s: np.ndarray, rest_s: float, stop_speed_m_s: float) -> np.ndarray:
+    """The partition rule on the whole history at once, written out independently of CutFinder:
+    cut at the first sample after a gap of at least the rest, and at the middle sample of a
+    standstill run (never spanning such a gap) lasting at least the rest."""
+    order = np.argsort(times_ns, kind="stable")
+    t, v = times_ns[order], speed_m_s[order]
+    if t.size < 2:
+        return np.zeros(0, dtype=np.int64)
+    rest_ns = int(rest_s * 10**9)
+    gap = np.flatnonzero(np.diff(t) >= rest_ns) + 1
+    still = np.isfinite(v) & (v < stop_speed_m_s)
+    after_gap = np.zeros(t.size, dtype=bool)
+    after_gap[gap] = True
+    first = np.flatnonzero(still & (np.r_[True, ~still[:-1]] | after_gap))
+    last = np.flatnonzero(still & (np.r_[~still[1:], True] | np.r_[after_gap[1:], False]))
+    long_run = (t[last] - t[first]) >= rest_ns
+    middle = np.searchsorted(t, (t[first[long_run]] + t[last[long_run]]) // 2, side="left")
+    out = np.unique(np.r_[t[gap], t[middle]])
+    return out[out > t[0]]
+
+
 @pytest.mark.parametrize("seed", range(60))
-def test_cut_finder_fed_in_chunks_equals_window_cuts(seed: int) -> None:
+def test_cut_finder_fed_in_chunks_equals_the_whole_history_rule(seed: int) -> None:
     # The streaming planner (one row group at a time) must cut exactly where the whole-history
     # rule cuts; rest 4 h, stop speed 0.3 m/s as the segment defaults (common practice, no source).
     rng = np.random.default_rng(seed)
     t, v = _random_log(rng)
-    want = window_cuts(t, v, rest_s=4 * 3600, stop_speed_m_s=0.3)
+    want = _whole_history_cuts(t, v, rest_s=4 * 3600, stop_speed_m_s=0.3)
+    np.testing.assert_array_equal(window_cuts(t, v, rest_s=4 * 3600, stop_speed_m_s=0.3), want)
     order = np.argsort(t, kind="stable")
     ts = t[order]
     changes = np.flatnonzero(np.diff(ts) > 0) + 1  # chunk edges never split equal times
@@ -259,7 +281,7 @@ def test_plan_streams_row_groups_to_the_whole_history_windows(tmp_path: Path) ->
     mine = frame.loc[frame[schema.VEHICLE_ID] == "VAN-7"]
     timed = mine.dropna(subset=[schema.TIME_UTC])
     t_ns = timed[schema.TIME_UTC].astype("int64").to_numpy()
-    cuts = window_cuts(t_ns, timed[schema.SPEED_M_S].to_numpy(), 4 * 3600, 0.3)
+    cuts = _whole_history_cuts(t_ns, timed[schema.SPEED_M_S].to_numpy(), 4 * 3600, 0.3)
     number = window_of(t_ns, cuts)
     assert cuts.size > 3  # the log has rests to cut at
     assert [w.lo_ns for w in got] == [None, *cuts.tolist()]
