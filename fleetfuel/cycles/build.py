@@ -17,7 +17,7 @@ from threadpoolctl import threadpool_limits
 
 from fleetfuel import schema
 from fleetfuel.cycles.assemble import Selection
-from fleetfuel.cycles.cluster import DutyTypeClusterer, fit_types, predict_types, type_names
+from fleetfuel.cycles.cluster import DutyTypeClusterer, by_microtrip, fit_types, predict_types, type_names
 from fleetfuel.cycles.config import CyclesConfig
 from fleetfuel.cycles.labels import label_types
 from fleetfuel.cycles.logs import CycleLogs, FrameLogs
@@ -239,7 +239,7 @@ def build_cycles(
 
 
 def _build(logs: CycleLogs, microtrips: pd.DataFrame, cfg: CyclesConfig, segment_cfg: SegmentConfig) -> CycleSet:
-    table = microtrips.sort_values(schema.MICROTRIP_ID, kind="stable").reset_index(drop=True)
+    table = by_microtrip(microtrips)
     _check_enough(table, cfg)
     try:
         model, columns = fit_types(table, cfg)

@@ -104,6 +104,15 @@ def weighted_silhouette(z: FloatArray, labels: IntArray, weight: FloatArray) -> 
     return float(np.sum(weight * s) / np.sum(weight))
 
 
+def by_microtrip(features: pd.DataFrame) -> pd.DataFrame:
+    """``features`` sorted by ``microtrip_id`` (stable), with a fresh range index; a table already
+    in that order (the work folder's) is not copied (copy-on-write: a later column assignment
+    leaves the caller's frame as it was)."""
+    ids = features[schema.MICROTRIP_ID]
+    ordered = features if ids.is_monotonic_increasing else features.sort_values(schema.MICROTRIP_ID, kind="stable")
+    return ordered.reset_index(drop=True)
+
+
 def cluster_matrix(features: pd.DataFrame) -> pd.DataFrame:
     """The clustering matrix (:data:`CLUSTER_FEATURES`) of a micro-trip feature table.
 
@@ -284,7 +293,7 @@ def fit_types(features: pd.DataFrame, cfg: CyclesConfig) -> tuple[DutyTypeCluste
     ValueError
         Too few rows for ``cfg.min_types`` (the stage turns this into a CycleError).
     """
-    table = features.sort_values(schema.MICROTRIP_ID, kind="stable")
+    table = by_microtrip(features)
     matrix = cluster_matrix(table)
     columns = tuple(c for c in matrix.columns if matrix[c].notna().any())
     x = matrix[list(columns)].to_numpy(dtype=np.float64)

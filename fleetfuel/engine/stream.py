@@ -251,7 +251,7 @@ def fleet_routes(fleet: PreparedFleet, engine: Engine, segment_cfg: Any, routes_
     jobs = [PathsJob(key, str(fleet.work.root), mine, origin, segment_cfg)
             for key, mine in fleet.partition_ids("trips", schema.TRIP_ID, wanted)]
     parts = fleet.run_round(engine, partition_path_cells, jobs, "route paths")
-    found = [p for p in parts if len(p)]
-    cells = pd.concat(found, ignore_index=True) if found else pd.DataFrame(columns=list(discovery.CELL_COLUMNS))
+    cells = discovery.concat_cells(parts)
+    del parts
     routed, ends = routes.trip_routes(trips, None, segment_cfg, rules, cells=cells)
     return routed, routes.route_table(routed, ends, rules)

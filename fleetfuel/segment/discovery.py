@@ -29,10 +29,12 @@ scikit-learn, ``sklearn.cluster.DBSCAN`` (metric ``"haversine"`` expects [lat, l
 
 from __future__ import annotations
 
-from collections.abc import Collection
+from collections.abc import Collection, Sequence
 
 import numpy as np
+import numpy.typing as npt
 import pandas as pd
+from pandas.api.types import union_categoricals
 
 from fleetfuel import schema
 from fleetfuel.constants import WGS84_MEAN_RADIUS_M
@@ -140,8 +142,33 @@ def path_cells(samples: pd.DataFrame, trip_ids: Collection[str], origin: tuple[f
     codes, names = pd.factorize(rows[key].astype(str))
     order = np.argsort(codes, kind="stable")
     journey, cells = journey_cells(rows.iloc[order], codes[order].astype(np.int64), len(names), origin, cfg)
-    return pd.DataFrame({"journey": pd.array(np.asarray(names, dtype=object)[journey], dtype="string"),
-                         "cell_x": cells[:, 0], "cell_y": cells[:, 1], "sector": cells[:, 2]})
+    return pd.DataFrame({"journey": pd.Categorical.from_codes(journey, categories=pd.Index(names, dtype="string")),
+                         **{name: cells[:, k].astype(np.int32) for k, name in enumerate(CELL_COLUMNS[1:])}})
+
+
+def concat_cells(parts: Sequence[pd.DataFrame]) -> pd.DataFrame:
+    """Path-cell tables (:func:`path_cells`, e.g. one per partition) as one, in the given order.
+
+    The journey column stays categorical (a code per row, each name once): a fleet's table has
+    a row per journey and cell, so a text per row would take several times the memory.
+    """
+    found = [p for p in parts if len(p)]
+    if not found:
+        return pd.DataFrame({"journey": pd.Categorical([], categories=pd.Index([], dtype="string")),
+                             **{name: np.zeros(0, dtype=np.int32) for name in CELL_COLUMNS[1:]}})
+    journey = union_categoricals([pd.Categorical(p["journey"]) for p in found])
+    return pd.DataFrame({"journey": journey,
+                         **{name: np.concatenate([p[name].to_numpy(np.int32) for p in found]) for name in CELL_COLUMNS[1:]}})
+
+
+def _journey_numbers(journey: pd.Series, index: pd.Series) -> npt.NDArray[np.float64]:
+    """Number of each cell row's journey in ``index`` (name -> number; NaN: not a usable
+    journey), looked up once per name when the column is categorical."""
+    if isinstance(journey.dtype, pd.CategoricalDtype):
+        per_name = index.reindex(journey.cat.categories.astype(str)).to_numpy(np.float64)
+        codes = journey.cat.codes.to_numpy()
+        return np.where(codes >= 0, per_name[np.maximum(codes, 0)], np.nan)
+    return index.reindex(journey.astype(str).to_numpy()).to_numpy(np.float64)
 
 
 def discover_routes(
@@ -194,9 +221,10 @@ def discover_routes(
             raise ValueError("discover_routes needs samples or cells")
         cells = path_cells(samples, trips[schema.TRIP_ID].astype(str), discovery_origin(trips, cfg), cfg)
     index = pd.Series(np.arange(n), index=usable["journey"].astype(str).to_numpy())
-    cells = cells.loc[cells["journey"].astype(str).isin(index.index).to_numpy()]
-    journey = index[cells["journey"].astype(str)].to_numpy().astype(np.int64)
-    tokens = token_matrix(journey, cells[list(CELL_COLUMNS[1:])].to_numpy(np.int64), n)
+    number = _journey_numbers(cells["journey"], index)
+    usable_rows = np.isfinite(number)
+    tokens = token_matrix(number[usable_rows].astype(np.int64),
+                          cells[list(CELL_COLUMNS[1:])].to_numpy(np.int64)[usable_rows], n)
     length = usable["distance_m"].to_numpy(np.float64)
     cluster = overlap_clusters(tokens, lo * (place.max() + 1) + hi, length, cfg)
 
