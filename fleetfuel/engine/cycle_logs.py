@@ -24,7 +24,7 @@ from fleetfuel import schema
 from fleetfuel.cycles.config import CyclesConfig
 from fleetfuel.cycles.logs import POOL_COLUMNS, microtrip_rows
 from fleetfuel.cycles.pieces import FloatArray, type_safd_counts
-from fleetfuel.engine.executors import Engine
+from fleetfuel.engine.executors import Engine, release_free_memory
 from fleetfuel.engine.stream import PreparedFleet
 from fleetfuel.engine.workdir import WorkFolder, read_frames, read_trip_rows
 from fleetfuel.segment.config import SegmentConfig
@@ -103,7 +103,10 @@ class WorkFolderCycleLogs:
                 parts.append(microtrip_rows(rows, mine[schema.MICROTRIP_ID]))
         if not parts:
             return pd.DataFrame({c: pd.Series([], dtype="string") for c in POOL_COLUMNS})
-        return pd.concat(parts, ignore_index=True)
+        pool = pd.concat(parts, ignore_index=True)
+        del parts
+        release_free_memory()  # the partitions' whole trips, read and cut down to the pool's rows
+        return pool
 
     def map(self, fn: Callable[[J], R], jobs: Sequence[J], stage: str) -> list[R]:
         return self.fleet.run_round(self.engine, fn, list(jobs), stage)

@@ -21,7 +21,7 @@ import fleetfuel
 from fleetfuel import schema
 from fleetfuel.clean.account import build_account
 from fleetfuel.clean.vehicle import CLEAN_COLUMNS, empty_clean_frame
-from fleetfuel.engine.executors import Engine
+from fleetfuel.engine.executors import Engine, release_free_memory
 from fleetfuel.engine.tasks import (
     CleanJob,
     ConsumptionJob,
@@ -109,6 +109,7 @@ class PreparedFleet:
 
     def run_round(self, engine: Engine, fn: Callable[[J], R], jobs: list[J], stage: str) -> list[R]:
         """``engine.map`` of ``fn`` over jobs (each with a partition ``key``), logged in the task log."""
+        release_free_memory()  # what the main process's work before this round freed
         try:
             return engine.map(fn, jobs, [job.key for job in jobs], stage)  # type: ignore[attr-defined]
         finally:  # an interrupted round's finished tasks are in the log too
@@ -254,4 +255,6 @@ def fleet_routes(fleet: PreparedFleet, engine: Engine, segment_cfg: Any, routes_
     cells = discovery.concat_cells(parts)
     del parts
     routed, ends = routes.trip_routes(trips, None, segment_cfg, rules, cells=cells)
+    del cells
+    release_free_memory()
     return routed, routes.route_table(routed, ends, rules)

@@ -4,8 +4,10 @@ A *journey* is one trip (``cfg.route_unit = "trip"``) or all trips of one operat
 (``"period"``, the default: a vehicle's duty, e.g. a delivery round from the depot back to it, is
 what a fleet calls a route; trips cut at delivery stops or breaks are legs of it).
 
-1. **Places.** All journey end points (starts and ends) are clustered with scikit-learn's DBSCAN on
-   the great-circle (haversine) distance, latitudes and longitudes in radians, ``eps`` =
+1. **Places.** All journey end points (starts and ends), snapped to cells a tenth of the place
+   radius across (one weighted point per cell, so memory does not grow with the square of the
+   journeys that start at one depot), are clustered with scikit-learn's DBSCAN on the
+   great-circle (haversine) distance, latitudes and longitudes in radians, ``eps`` =
    ``cfg.place_radius_m`` / mean Earth radius. Noise points become places of their own.
 2. **End-place pairs.** Each journey joins the group of its (start place, end place). By default
    the pair is ordered and headings count in full: A->B and B->A, or a loop and its reverse,
@@ -30,6 +32,7 @@ scikit-learn, ``sklearn.cluster.DBSCAN`` (metric ``"haversine"`` expects [lat, l
 from __future__ import annotations
 
 from collections.abc import Collection, Sequence
+from typing import Final
 
 import numpy as np
 import numpy.typing as npt
@@ -51,22 +54,41 @@ DISCOVERED_COLUMNS = (
     "description",
 )
 """Columns of the route table :func:`discover_routes` returns."""
+PLACE_SNAP_PER_RADIUS: Final = 10
+"""End points are snapped to cells of the place radius over this before DBSCAN (see :func:`_places`)."""
 
 
 def _places(lat_deg: FloatArray, lon_deg: FloatArray, cfg: SegmentConfig) -> IntArray:
-    """Place label of each point (0..P-1 in order of first appearance; noise: own places)."""
+    """Place label of each point (0..P-1 in order of first appearance; noise: own places).
+
+    Points are first snapped to cells of ``cfg.place_radius_m / PLACE_SNAP_PER_RADIUS`` (one per
+    occupied cell, weighted by its points), so a depot that thousands of journeys start from is a
+    few points for DBSCAN, not thousands: its neighbour lists would grow with the square of the
+    journeys. Snapping moves a point by at most half a cell's diagonal, 0.071 of the radius.
+    """
     # Imported here: scikit-learn takes over a second to load, and the engine's workers, which
     # import this module to segment their partitions, never cluster places (measured 1.5 s).
     from sklearn.cluster import DBSCAN
 
-    points = np.radians(np.column_stack([lat_deg, lon_deg]))
+    step = cfg.place_radius_m / PLACE_SNAP_PER_RADIUS / WGS84_MEAN_RADIUS_M  # [rad]
+    lat = np.radians(np.asarray(lat_deg, dtype=np.float64))
+    lon = np.radians(np.asarray(lon_deg, dtype=np.float64))
+    row = np.floor(lat / step)
+    centre_lat = (row + 0.5) * step
+    lon_step = step / np.maximum(np.cos(centre_lat), 1e-6)  # the same east-west width in metres
+    col = np.floor(lon / lon_step)
+    cells, point_cell = np.unique(np.column_stack([row, col]), axis=0, return_inverse=True)
+    point_cell = point_cell.ravel()
+    weight = np.bincount(point_cell, minlength=len(cells)).astype(np.float64)
+    cell_lat = (cells[:, 0] + 0.5) * step
+    cell_lon = (cells[:, 1] + 0.5) * step / np.maximum(np.cos(cell_lat), 1e-6)
     model = DBSCAN(
         eps=cfg.place_radius_m / WGS84_MEAN_RADIUS_M,
         min_samples=cfg.place_min_samples,
         metric="haversine",
         algorithm="ball_tree",
     )
-    labels = model.fit_predict(points).astype(np.int64)
+    labels = model.fit_predict(np.column_stack([cell_lat, cell_lon]), sample_weight=weight).astype(np.int64)[point_cell]
     noise = labels < 0
     labels[noise] = labels.max(initial=-1) + 1 + np.arange(int(noise.sum()))
     codes, _ = pd.factorize(labels)

@@ -199,3 +199,74 @@ def test_path_cells_of_each_period_give_the_routes_of_the_whole_frame() -> None:
     from_frame, _ = trip_routes(trips, samples, cfg)
     pd.testing.assert_frame_equal(from_cells, from_frame)
     assert from_cells["route"].nunique() == 3
+
+
+def _depot_points(rng: np.random.Generator, n: int) -> tuple[np.ndarray, np.ndarray]:
+    """``n`` end points around three places about 20 km apart, 15 m of GPS scatter (invented)."""
+    centres = np.array([[52.00, 5.00], [52.18, 5.00], [52.00, 5.29]])  # about 20 km apart
+    pick = rng.integers(0, 3, n)
+    scatter = rng.normal(0.0, 15.0, (n, 2)) / 6.371e6
+    lat = centres[pick, 0] + np.degrees(scatter[:, 0])
+    lon = centres[pick, 1] + np.degrees(scatter[:, 1] / np.cos(np.radians(52.0)))
+    return lat, lon
+
+
+def test_snapped_places_equal_exact_dbscan_and_stay_few_points() -> None:
+    # Reference: scikit-learn's DBSCAN on every point (no snapping), the same eps and metric.
+    from sklearn.cluster import DBSCAN
+
+    from fleetfuel.segment import discovery
+
+    rng = np.random.default_rng(7)
+    lat, lon = _depot_points(rng, 4000)
+    cfg = SegmentConfig()
+    got = discovery._places(lat, lon, cfg)
+    exact = DBSCAN(eps=cfg.place_radius_m / 6_371_008.8, min_samples=1, metric="haversine",
+                   algorithm="ball_tree").fit_predict(np.radians(np.column_stack([lat, lon])))
+    assert np.array_equal(got, pd.factorize(exact)[0])
+    assert got.max() == 2
+    # 4000 points in three spots of 15 m scatter occupy few cells of 30 m
+    step = cfg.place_radius_m / discovery.PLACE_SNAP_PER_RADIUS / 6.371e6
+    cells = np.unique(np.column_stack([np.floor(np.radians(lat) / step), np.floor(np.radians(lon) / step)]), axis=0)
+    assert len(cells) < 100
+
+
+def test_packed_tokens_number_like_the_cell_triples() -> None:
+    # Reference: pandas factorizing the (east, north, sector) triples as a MultiIndex.
+    from fleetfuel.segment.paths import token_matrix
+
+    rng = np.random.default_rng(3)
+    cells = np.column_stack([rng.integers(-5000, 5000, 20_000), rng.integers(-5000, 5000, 20_000), rng.integers(0, 9, 20_000)])
+    cells[10_000:] = cells[:10_000]  # repeats
+    journey = np.sort(rng.integers(0, 50, 20_000))
+    matrix = token_matrix(journey, cells, 50)
+    ref, uniques = pd.factorize(pd.MultiIndex.from_arrays([cells[:, 0], cells[:, 1], cells[:, 2]]))
+    assert matrix.shape == (50, len(uniques))
+    expected = np.zeros(matrix.shape, dtype=np.int32)
+    expected[journey, ref] = 1
+    assert np.array_equal(matrix.toarray(), expected)
+    with pytest.raises(ValueError, match="packed token range"):
+        token_matrix(np.zeros(1, dtype=np.int64), np.array([[1 << 24, 0, 0]]), 1)
+
+
+def test_overlap_components_do_not_depend_on_the_edge_budget(monkeypatch) -> None:
+    # Reference: scipy's connected components of all neighbour pairs kept at once (a budget no
+    # pair list reaches); a tiny budget reduces the pairs to spanning stars many times over.
+    from fleetfuel.segment import paths
+
+    rng = np.random.default_rng(11)
+    n, width = 600, 400
+    base = rng.integers(0, 40, n) * 150  # families of paths, neighbours 150 cells apart chain up
+    base[rng.random(n) < 0.5] += 100_000  # two far-apart districts
+    noise = (rng.random((n, width)) < 0.15) * rng.integers(10**6, 5 * 10**6, (n, width))  # 15 % detours
+    east = (base[:, None] + np.arange(width) + noise).ravel()
+    zero = np.zeros(n * width, dtype=np.int64)
+    tokens = paths.token_matrix(np.repeat(np.arange(n), width), np.column_stack([east, zero, zero]), n)
+    groups = rng.integers(0, 3, n)
+    length = np.full(n, 1.0)
+    cfg = SegmentConfig()
+    whole = paths.overlap_clusters(tokens, groups, length, cfg)
+    monkeypatch.setattr(paths, "EDGE_BUDGET", 50)
+    monkeypatch.setattr(paths, "PAIR_BLOCK", 5_000)
+    assert np.array_equal(paths.overlap_clusters(tokens, groups, length, cfg), whole)
+    assert 100 < whole.max() + 1 < n / 2  # families joined, groups kept apart: a real partition
