@@ -307,14 +307,10 @@ def trip_routes(trips: pd.DataFrame) -> pd.Series:
 
 def _write_work(work_dir: Path, result: ForecastResult, microtrips: pd.DataFrame) -> None:
     """Intermediate data of a forecast run in ``work_dir`` (Parquet, atomic): tables, micro-trips, cycles."""
-    import io
-
-    from fleetfuel.report.files import write_bytes_atomic
+    from fleetfuel.engine.workdir import write_frame
 
     def put(name: str, frame: pd.DataFrame) -> None:
-        buffer = io.BytesIO()
-        frame.to_parquet(buffer, index=False)
-        write_bytes_atomic(work_dir / f"{name}.parquet", buffer.getvalue())
+        write_frame(work_dir / f"{name}.parquet", frame)
 
     for name in WORK_TABLES:
         put(name, getattr(result, name))
@@ -395,6 +391,7 @@ def forecast_paths(
     ConfigError
         Bad forecast settings (unclassified vehicles, unknown current spec, ...).
     """
+    from fleetfuel.engine.executors import release_free_memory
     from fleetfuel.engine.routes import WorkFolderLogs
 
     cfg = _with_profile(cfg, profile)
@@ -402,5 +399,6 @@ def forecast_paths(
     step(0)
     with prepared(paths, cfg, work_dir, engine) as (fleet, running):
         inputs, trips = _inputs_of(fleet, running, paths, cfg, routes_file, step)
+        release_free_memory()  # what routes, duty types and cycles freed, before the forecast's own work
         logs = WorkFolderLogs(fleet, trip_routes(trips), running)
         return run_forecast(inputs, cfg, full=full, work_dir=work_dir, progress=progress, logs=logs)

@@ -19,6 +19,7 @@ from typing import TypeVar
 
 import numpy as np
 import pandas as pd
+from pandas.api.types import union_categoricals
 
 from fleetfuel import schema
 from fleetfuel.cycles.config import CyclesConfig
@@ -32,6 +33,8 @@ from fleetfuel.segment.config import SegmentConfig
 J = TypeVar("J")
 R = TypeVar("R")
 _KEY = "partition"  # column of the partition key in the fleet's micro-trip id table
+POOL_ID_COLUMNS = (schema.VEHICLE_ID, *schema.SEGMENT_ID_COLUMNS)
+"""The pool rows' columns held as categoricals (:meth:`WorkFolderCycleLogs.microtrip_rows`)."""
 SAFD_COLUMNS = (schema.TIME_UTC, schema.SPEED_M_S, schema.TRIP_ID, schema.MICROTRIP_ID)
 """The columns a SAFD task reads (kinematics trip by trip, micro-trip of each row)."""
 
@@ -96,14 +99,20 @@ class WorkFolderCycleLogs:
         return dict(sorted(total.items()))
 
     def microtrip_rows(self, microtrip_ids: Collection[str]) -> pd.DataFrame:
+        """:func:`fleetfuel.cycles.logs.microtrip_rows` of the fleet, read partition by partition;
+        the id columns categorical (:data:`POOL_ID_COLUMNS`: a few thousand names over hundreds
+        of thousands of rows, a code each instead of a text)."""
         parts = []
         for key, mine in self._by_partition(self._ids[schema.MICROTRIP_ID].isin(pd.Index(list(microtrip_ids)))):
             rows = read_trip_rows(self.fleet.work.table("samples", key), POOL_COLUMNS, set(mine[schema.TRIP_ID]))
             if rows is not None:
-                parts.append(microtrip_rows(rows, mine[schema.MICROTRIP_ID]))
+                part = microtrip_rows(rows, mine[schema.MICROTRIP_ID])
+                parts.append(part.astype({c: pd.CategoricalDtype(pd.Index(part[c].dropna().unique(), dtype="string"))
+                                          for c in POOL_ID_COLUMNS}))
         if not parts:
             return pd.DataFrame({c: pd.Series([], dtype="string") for c in POOL_COLUMNS})
-        pool = pd.concat(parts, ignore_index=True)
+        pool = pd.DataFrame({c: union_categoricals([p[c] for p in parts]) if c in POOL_ID_COLUMNS
+                             else pd.concat([p[c] for p in parts], ignore_index=True) for c in POOL_COLUMNS})
         del parts
         release_free_memory()  # the partitions' whole trips, read and cut down to the pool's rows
         return pool

@@ -34,7 +34,7 @@ import pyarrow.parquet as pq
 
 from fleetfuel import schema
 from fleetfuel.errors import OutputError
-from fleetfuel.report.files import write_bytes_atomic, write_text_atomic
+from fleetfuel.report.files import atomic_target, write_text_atomic
 
 PARTITION_TABLES: Final = ("samples", "features", "trips", "summary", "dropped")
 """Tables every finished partition leaves in the work folder."""
@@ -46,15 +46,14 @@ TASK_LOG: Final = "tasks.jsonl"
 
 def write_frame(path: Path, frame: pd.DataFrame) -> None:
     """Write ``frame`` to Parquet at ``path`` atomically (index dropped, row groups for push-down)."""
-    buffer = pa.BufferOutputStream()
     table = pa.Table.from_pandas(frame, preserve_index=False)
     # Dictionary pages for the text columns only: numbers rarely repeat, and trying a dictionary
     # for them cost a third of the write time (measured on the sample fleet's partitions, which
     # also came out 14 % smaller).
     text = [f.name for f in table.schema if pa.types.is_string(f.type) or pa.types.is_large_string(f.type)
             or pa.types.is_dictionary(f.type)]
-    pq.write_table(table, buffer, row_group_size=ROW_GROUP_ROWS, use_dictionary=text)
-    write_bytes_atomic(path, buffer.getvalue().to_pybytes())
+    with atomic_target(path) as tmp:  # streamed to disk: no copy of the file in memory
+        pq.write_table(table, tmp, row_group_size=ROW_GROUP_ROWS, use_dictionary=text)
 
 
 def write_json(path: Path, data: Any) -> None:
