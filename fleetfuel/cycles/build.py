@@ -130,15 +130,18 @@ def _targets(microtrips: pd.DataFrame, names: list[str]) -> pd.DataFrame:
     Sums of the micro-trips' additive sums (:func:`fleetfuel.cycles.stats.additive_sums`): the
     statistics of all the type's samples together, from the feature table alone.
     """
-    rows = microtrips.loc[microtrips["type"].notna().to_numpy()]
-    types = rows["type"].astype(str)
-    has_measured = set(types[rows["measured"].to_numpy(dtype=bool)])
-    use = rows["measured"].to_numpy(dtype=bool) | ~types.isin(has_measured).to_numpy()
-    sums = pd.DataFrame(additive_sums(rows.loc[use])).groupby(types[use].to_numpy(), sort=True).sum()
+    # masks over the whole table, not copies of its rows (a big fleet's table is hundreds of MB)
+    typed = microtrips["type"].notna().to_numpy()
+    types = microtrips["type"].astype("string").fillna("")
+    measured = microtrips["measured"].to_numpy(dtype=bool) & typed
+    has_measured = set(types[measured])
+    use = typed & (measured | ~types.isin(has_measured).to_numpy())
+    names_used = types.to_numpy(dtype=object)[use]
+    sums = pd.DataFrame(additive_sums(microtrips)[use]).groupby(names_used, sort=True).sum()
     stats = pd.DataFrame(stats_from_sums(sums.to_numpy(dtype=np.float64)), index=sums.index, columns=list(TARGET_STATS))
     # as on the samples: a group holding a row whose acceleration is not observable (accel_share
     # NaN, low-rate logs) has no acceleration statistics
-    unobserved = rows.loc[use, "accel_share"].isna().groupby(types[use].to_numpy(), sort=True).any()
+    unobserved = pd.Series(microtrips["accel_share"].isna().to_numpy()[use]).groupby(names_used, sort=True).any()
     stats.loc[unobserved.reindex(stats.index).to_numpy(dtype=bool), list(ACCEL_STATS)] = np.nan
     return stats.reindex(names)
 

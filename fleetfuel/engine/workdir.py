@@ -40,6 +40,7 @@ PARTITION_TABLES: Final = ("samples", "features", "trips", "summary", "dropped")
 """Tables every finished partition leaves in the work folder."""
 _FOLDERS: Final = ("raw", *PARTITION_TABLES, "done")
 ROW_GROUP_ROWS: Final = 65_536  # our choice: row groups small enough for predicate push-down
+READ_BATCH_FILES: Final = 256  # files per batch of :func:`read_frames` (see there)
 RUN_FILE: Final = "run.json"
 TASK_LOG: Final = "tasks.jsonl"
 
@@ -78,11 +79,22 @@ def typed(frame: pd.DataFrame) -> pd.DataFrame:
 def read_frames(paths: Iterable[Path], columns: Sequence[str] | None = None) -> pd.DataFrame | None:
     """The Parquet files ``paths`` (those that exist) read and concatenated in the given order
     (None when there is no row)."""
-    parts = [pq.read_table(p, columns=list(columns) if columns else None) for p in paths if p.is_file()]
-    parts = [t for t in parts if t.num_rows]
-    if not parts:
+    # Files read a batch at a time and each batch made one chunk: thousands of small tables held at
+    # once, and a frame of as many chunks per column, cost far more than their rows (measured on
+    # 3534 partitions' micro-trip features, 109 MiB as a frame: peak 378 MiB more read at once,
+    # 220 MiB more in batches of 256).
+    found = [p for p in paths if p.is_file()]
+    batches = []
+    for start in range(0, len(found), READ_BATCH_FILES):
+        parts = [pq.read_table(p, columns=list(columns) if columns else None) for p in found[start:start + READ_BATCH_FILES]]
+        parts = [t for t in parts if t.num_rows]
+        if parts:
+            batches.append(pa.concat_tables(parts, promote_options="default").combine_chunks())
+    if not batches:
         return None
-    return typed(pa.concat_tables(parts, promote_options="default").to_pandas())
+    table = pa.concat_tables(batches, promote_options="default")
+    del batches
+    return typed(table.to_pandas(split_blocks=True, self_destruct=True))  # Arrow buffers let go as converted
 
 
 def read_trip_rows(path: Path, columns: Sequence[str], trips: Iterable[str] | None = None) -> pd.DataFrame | None:
