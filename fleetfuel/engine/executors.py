@@ -99,12 +99,7 @@ def release_free_memory() -> None:
     arrays is fragmented, so it cannot shrink from the top): without this, the main process's
     resident size ratchets up to the sum of its stages' peaks. Nothing to do elsewhere.
     """
-    try:
-        import pyarrow as pa
-
-        pa.default_memory_pool().release_unused()
-    except (ImportError, AttributeError):  # pragma: no cover - pyarrow is a dependency
-        pass
+    _release_arrow_memory()
     if sys.platform.startswith("linux"):
         try:
             ctypes.CDLL(ctypes.util.find_library("c") or "libc.so.6").malloc_trim(0)
