@@ -82,7 +82,7 @@ def read_frames(paths: Iterable[Path], columns: Sequence[str] | None = None) -> 
     # Files read a batch at a time and each batch made one chunk: thousands of small tables held at
     # once, and a frame of as many chunks per column, cost far more than their rows (measured on
     # 3534 partitions' micro-trip features, 109 MiB as a frame: peak 378 MiB more read at once,
-    # 220 MiB more in batches of 256).
+    # 231 MiB more in batches of 256).
     found = [p for p in paths if p.is_file()]
     batches = []
     for start in range(0, len(found), READ_BATCH_FILES):

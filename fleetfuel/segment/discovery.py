@@ -74,14 +74,14 @@ def _places(lat_deg: FloatArray, lon_deg: FloatArray, cfg: SegmentConfig) -> Int
     lat = np.radians(np.asarray(lat_deg, dtype=np.float64))
     lon = np.radians(np.asarray(lon_deg, dtype=np.float64))
     row = np.floor(lat / step)
-    centre_lat = (row + 0.5) * step
-    lon_step = step / np.maximum(np.cos(centre_lat), 1e-6)  # the same east-west width in metres
+    # the same east-west width in metres on every row (the cosine kept off zero at the poles)
+    lon_step = step / np.maximum(np.cos((row + 0.5) * step), 1e-6)
     col = np.floor(lon / lon_step)
-    cells, point_cell = np.unique(np.column_stack([row, col]), axis=0, return_inverse=True)
+    cells, first, point_cell = np.unique(np.column_stack([row, col]), axis=0, return_index=True, return_inverse=True)
     point_cell = point_cell.ravel()
     weight = np.bincount(point_cell, minlength=len(cells)).astype(np.float64)
     cell_lat = (cells[:, 0] + 0.5) * step
-    cell_lon = (cells[:, 1] + 0.5) * step / np.maximum(np.cos(cell_lat), 1e-6)
+    cell_lon = (cells[:, 1] + 0.5) * lon_step[first]  # a cell's row gives its width
     model = DBSCAN(
         eps=cfg.place_radius_m / WGS84_MEAN_RADIUS_M,
         min_samples=cfg.place_min_samples,

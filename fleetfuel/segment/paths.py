@@ -148,11 +148,16 @@ def token_matrix(journey: IntArray, cells: IntArray, n: int) -> sparse.csr_matri
     return matrix
 
 
+def _components(i: IntArray, j: IntArray, n: int) -> IntArray:
+    """Connected-component label of each of ``n`` nodes joined by the edges ``(i, j)``."""
+    graph = sparse.coo_matrix((np.ones(i.size, dtype=np.float32), (i, j)), shape=(n, n)).tocsr()
+    return connected_components(graph, directed=False)[1]
+
+
 def _spanning(i: IntArray, j: IntArray, n: int) -> tuple[IntArray, IntArray]:
     """Edges with the connected components of edges ``(i, j)`` among ``n`` nodes, one per node
     beyond the first of each component (a star on its lowest node)."""
-    graph = sparse.coo_matrix((np.ones(i.size, dtype=np.float32), (i, j)), shape=(n, n)).tocsr()
-    _, labels = connected_components(graph, directed=False)
+    labels = _components(i, j, n)
     first = np.full(labels.max(initial=-1) + 1, n, dtype=np.int64)
     np.minimum.at(first, labels, np.arange(n))
     root = first[labels]
@@ -200,8 +205,6 @@ def overlap_clusters(
             if kept > EDGE_BUDGET + n:  # same components, at most n - 1 edges
                 star = _spanning(np.concatenate(rows_out), np.concatenate(cols_out), n)
                 rows_out, cols_out, kept = [star[0]], [star[1]], star[0].size
-    i, j = np.concatenate(rows_out), np.concatenate(cols_out)
-    graph = sparse.coo_matrix((np.ones(i.size, dtype=np.float32), (i, j)), shape=(n, n)).tocsr()
-    _, labels = connected_components(graph, directed=False)
+    labels = _components(np.concatenate(rows_out), np.concatenate(cols_out), n)
     codes, _ = pd.factorize(labels)  # in order of first journey
     return codes.astype(np.int64)
