@@ -27,6 +27,10 @@ coarsest well-separated split, so we take the **largest** :math:`k` whose silhou
 ``min_type_share`` of the weight). Types are numbered by increasing weighted mean of the first
 feature (running speed): ``T1`` is the slowest.
 
+A big fleet is fitted on a seeded uniform draw of at most ``fit_sample`` micro-trips, each
+keeping its weight (:func:`fit_subsample`); every micro-trip is then typed by the fitted model, in
+blocks of rows. The fit's memory and time stay bounded whatever the fleet size.
+
 Rows with a missing feature (e.g. no elevation: grade unknown) are not fitted; they get the type
 whose centroid is nearest in the scaled space over the features they have. Features missing on
 every row are dropped. Deterministic: rows are sorted by ``microtrip_id`` before the fit and every
@@ -71,6 +75,7 @@ CLUSTER_FEATURES: Final = (
 
 TYPE_PREFIX: Final = "T"
 _CHUNK_ROWS: Final = 512  # rows of the distance matrix held at once in the silhouette
+_PREDICT_ROWS: Final = 65_536  # rows typed at once (each step of the pipeline copies them)
 
 
 def weighted_silhouette(z: FloatArray, labels: IntArray, weight: FloatArray) -> float:
@@ -253,8 +258,11 @@ class DutyTypeClusterer(ClusterMixin, BaseEstimator):
         out = np.full(len(x), -1, dtype=np.int64)
         complete = np.all(np.isfinite(x), axis=1)
         if complete.any():
+            rows = np.flatnonzero(complete)
             with threadpool_limits(limits=1):
-                out[complete] = self.order_[self.pipeline_.predict(x[complete])]
+                for start in range(0, rows.size, _PREDICT_ROWS):  # bounded copies on a big fleet's table
+                    part = rows[start:start + _PREDICT_ROWS]
+                    out[part] = self.order_[self.pipeline_.predict(x[part])]
         partial = ~complete & np.any(np.isfinite(x), axis=1)
         if partial.any():
             scale = self.pipeline_[0].scale_
@@ -300,15 +308,33 @@ def fit_types(features: pd.DataFrame, cfg: CyclesConfig) -> tuple[DutyTypeCluste
     w = fit_weight(table, cfg)
     duration = table["duration_s"].to_numpy(dtype=np.float64, na_value=np.nan)
     rows = np.all(np.isfinite(x), axis=1) & (w > 0) & (duration >= cfg.min_fit_duration_s)
-    model = _fit(x[rows], w[rows], cfg, cfg.max_types)
+    sample = fit_subsample(rows, cfg.fit_sample, cfg.seed)
+    model = _fit(x[sample], w[sample], cfg, cfg.max_types)
     # Every type should hold one cycle's worth of driving (small logs): fewer types until it does.
     time_s = duration[rows]
     while model.n_types_ > cfg.min_types:
-        held = np.bincount(model.labels_, weights=time_s, minlength=model.n_types_)
+        labels = model.labels_ if sample.size == time_s.size else model.predict(x[rows])
+        held = np.bincount(labels, weights=time_s, minlength=model.n_types_)
         if held.min() >= cfg.target_duration_s:
             break
-        model = _fit(x[rows], w[rows], cfg, model.n_types_ - 1)
+        model = _fit(x[sample], w[sample], cfg, model.n_types_ - 1)
     return model, columns
+
+
+def fit_subsample(rows: npt.NDArray[np.bool_], limit: int, seed: int) -> IntArray:
+    """Indices of the rows the types are fitted on: every row under ``rows``, or a seeded uniform
+    draw of ``limit`` of them (sorted) when there are more.
+
+    The draw depends only on the table (sorted by micro-trip id) and the seed, never on the
+    engine; each drawn row keeps its weight, so the weighted fit of the draw estimates the
+    weighted fit of all rows.
+    """
+    index = np.flatnonzero(rows)
+    if index.size <= limit:
+        return index
+    # a stream of its own (seed, 1): not the k-means starts' or the silhouette draw's numbers
+    rng = np.random.default_rng([seed, 1])
+    return np.sort(rng.choice(index, size=limit, replace=False))
 
 
 def _fit(x: FloatArray, w: FloatArray, cfg: CyclesConfig, max_types: int) -> DutyTypeClusterer:

@@ -282,7 +282,9 @@ def safd_types(microtrips: pd.DataFrame) -> pd.Series:
     """microtrip_id -> type of the micro-trips a type's SAFD counts (``measured``, else ``eligible``)."""
     flag = "measured" if "measured" in microtrips.columns else "eligible"
     rows = microtrips.loc[microtrips[flag].to_numpy(dtype=bool) & microtrips["type"].notna().to_numpy()]
-    return pd.Series(rows["type"].astype(str).to_numpy(), index=rows[schema.MICROTRIP_ID].astype(str).to_numpy())
+    # Arrow-backed texts, not a Python object per micro-trip and column (a big fleet has ~10^6)
+    return pd.Series(rows["type"].astype("string").array,
+                     index=pd.Index(rows[schema.MICROTRIP_ID].astype("string"), name=None), dtype="string")
 
 
 def pool_microtrips(microtrips: pd.DataFrame, cfg: CyclesConfig) -> npt.NDArray[np.bool_]:

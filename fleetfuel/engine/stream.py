@@ -86,6 +86,7 @@ class PreparedFleet:
     def features(self) -> pd.DataFrame:
         """Micro-trip feature table of every partition (sorted by vehicle and start time)."""
         frame = read_frames(self._paths("features"))
+        release_free_memory()  # the read's Arrow tables: the frame is a fraction of their peak
         return pd.DataFrame() if frame is None else frame
 
     @cached_property

@@ -102,3 +102,40 @@ def test_weighted_silhouette_equals_scikit_learn_with_unit_weights() -> None:
     # integer weights equal repeating the points (own copies excluded from a_i by construction)
     w = rng.integers(1, 4, 150).astype(float)
     assert 0 < weighted_silhouette(z, labels, w) < 1
+
+
+def test_a_big_table_is_fitted_on_a_seeded_draw_and_every_row_typed(labelled: pd.DataFrame) -> None:
+    # A fit capped at half the table (a big fleet's case, scaled down) still recovers the classes
+    # (purity >= 0.9, the issue-4 goal), does not depend on row order, and types every row.
+    full, _ = fit_types(labelled, CyclesConfig())
+    cfg = CyclesConfig(fit_sample=len(labelled) // 2)
+    drawn, columns = fit_types(labelled, cfg)
+    assert drawn.labels_.size <= len(labelled) // 2 < full.labels_.size
+    again, _ = fit_types(labelled.sample(frac=1.0, random_state=11), cfg)
+    assert drawn.silhouettes_ == again.silhouettes_
+    types = predict_types(drawn, columns, labelled)
+    assert types.notna().all()
+    assert _purity(types, labelled["label"]) >= 0.9
+    assert drawn.n_types_ == full.n_types_
+
+
+def test_fit_subsample_draws_only_fit_rows_sorted_and_keeps_small_tables_whole() -> None:
+    from fleetfuel.cycles.cluster import fit_subsample
+
+    rows = np.zeros(1000, dtype=bool)
+    rows[::3] = True  # 334 fit rows
+    assert fit_subsample(rows, 334, seed=0).tolist() == np.flatnonzero(rows).tolist()
+    drawn = fit_subsample(rows, 100, seed=0)
+    assert drawn.size == 100 == np.unique(drawn).size and rows[drawn].all()
+    assert np.all(np.diff(drawn) > 0)
+    assert drawn.tolist() == fit_subsample(rows, 100, seed=0).tolist()
+    assert drawn.tolist() != fit_subsample(rows, 100, seed=1).tolist()
+
+
+def test_typing_in_blocks_equals_typing_at_once(labelled: pd.DataFrame, monkeypatch: pytest.MonkeyPatch) -> None:
+    from fleetfuel.cycles import cluster
+
+    model, columns = fit_types(labelled, CyclesConfig())
+    whole = predict_types(model, columns, labelled)
+    monkeypatch.setattr(cluster, "_PREDICT_ROWS", 7)
+    assert predict_types(model, columns, labelled).equals(whole)
