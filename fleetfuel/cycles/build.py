@@ -22,14 +22,13 @@ from fleetfuel.cycles.config import CyclesConfig
 from fleetfuel.cycles.labels import label_types
 from fleetfuel.cycles.logs import CycleLogs, FrameLogs
 from fleetfuel.cycles.pieces import (
-    build_pool,
     eligible_microtrips,
     measured_microtrips,
     pool_microtrips,
     safd_types,
 )
 from fleetfuel.cycles.safd import safd_shape
-from fleetfuel.cycles.search import search_type, type_search
+from fleetfuel.cycles.search import PoolSearch, search_pool
 from fleetfuel.cycles.stats import (
     TARGET_STATS,
     additive_sums,
@@ -165,9 +164,9 @@ def _acceptance(type_name: str, target: np.ndarray, achieved: np.ndarray, cfg: C
     )
 
 
-def _composition(type_name: str, pieces: pd.DataFrame, selection: Selection) -> pd.DataFrame:
-    table = pieces.iloc[selection.pieces]
-    out = table[["piece_id", schema.MICROTRIP_ID, schema.VEHICLE_ID, "kind", "start_utc", "end_utc", "duration_s"]].copy()
+def _composition(type_name: str, chosen: pd.DataFrame) -> pd.DataFrame:
+    """The composition rows of a cycle from its chosen pieces' pool rows (cycle order)."""
+    out = chosen[["piece_id", schema.MICROTRIP_ID, schema.VEHICLE_ID, "kind", "start_utc", "end_utc", "duration_s"]].copy()
     out.insert(0, "order", np.arange(1, len(out) + 1))
     out.insert(0, "type", type_name)
     return out.reset_index(drop=True)[list(COMPOSITION_COLUMNS)]
@@ -263,23 +262,23 @@ def _build(logs: CycleLogs, microtrips: pd.DataFrame, cfg: CyclesConfig, segment
     labels = label_types(targets)
     type_safd = logs.type_safd(safd_types(table), cfg, segment_cfg)
     in_pool = table.loc[pool_microtrips(table, cfg)]
-    samples = logs.microtrip_rows(in_pool[schema.MICROTRIP_ID].astype(str).tolist())
-    pool = build_pool(samples, in_pool, step_s, type_safd, cfg, segment_cfg)
+    pool_type = in_pool["type"].astype("string").to_numpy(dtype=object, na_value=None)
     cycles, selections, safd_type, safd_cycle, safd_diff, accept, parts = {}, {}, {}, {}, {}, [], []
     jobs = []
     for number, name in enumerate(names):
-        counts = pool.type_safd.get(name, np.zeros(0))
+        counts = type_safd.get(name, np.zeros(0))
         if counts.sum() > 0:
             safd_type[name] = (counts / counts.sum()).reshape(safd_shape(cfg))
         target = targets.loc[name, list(TARGET_STATS)].to_numpy(dtype=np.float64)
-        jobs.append(type_search(pool, samples, name, number, target, safd_type.get(name, np.zeros(safd_shape(cfg))),
-                                cfg, segment_cfg))
-    pieces = pool.table
-    del pool, samples  # the jobs hold each type's share of the pool's arrays and rows
+        mine = in_pool.loc[pool_type == name]
+        jobs.append(PoolSearch(name, number, target, counts, safd_type.get(name, np.zeros(safd_shape(cfg))), mine,
+                               logs.pool_rows(mine[schema.MICROTRIP_ID].astype(str).tolist()), step_s, cfg,
+                               segment_cfg))
     # The biggest pools first, so that parallel workers finish together (a search's time grows with
     # its type's pieces); results are taken back in type order.
-    longest_first = sorted(range(len(jobs)), key=lambda k: (-len(jobs[k].pool.table), k))
-    searched = dict(zip(longest_first, logs.map(search_type, [jobs[k] for k in longest_first], "type cycles"),
+    size = [float(job.microtrips["duration_s"].sum()) for job in jobs]
+    longest_first = sorted(range(len(jobs)), key=lambda k: (-size[k], k))
+    searched = dict(zip(longest_first, logs.map(search_pool, [jobs[k] for k in longest_first], "type cycles"),
                         strict=True))
     for job, found in zip(jobs, (searched[k] for k in range(len(jobs))), strict=True):  # types in order
         name = job.key
@@ -289,7 +288,7 @@ def _build(logs: CycleLogs, microtrips: pd.DataFrame, cfg: CyclesConfig, segment
         selections[name] = found.selection
         cycles[name], safd_cycle[name], safd_diff[name] = found.trace, found.safd, found.safd_diff
         accept.append(_acceptance(name, job.target, found.achieved, cfg))
-        parts.append(_composition(name, pieces, found.selection))
+        parts.append(_composition(name, found.pieces))
     if not accept:
         raise CycleError(
             f"too little driving to form cycles: none of the {len(names)} duty-cycle types has "

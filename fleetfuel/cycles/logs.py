@@ -3,8 +3,8 @@
 The clustering, the types' targets and which micro-trips are measured come from the feature table
 alone (one row per micro-trip). Two things need samples: each type's speed-acceleration frequency
 distribution over all its measured driving (additive, so it can be summed partition by partition)
-and the rows of the micro-trips the pool of pieces is cut from (bounded by
-``CyclesConfig.pool_max_s`` per type). :class:`FrameLogs` answers both from a frame in memory;
+and the rows of the micro-trips each type's pool of pieces is cut from (bounded by
+``CyclesConfig.pool_max_s`` per type; read inside the type's search task, :class:`PoolRows`). :class:`FrameLogs` answers both from a frame in memory;
 the engine answers them from the work folder (:mod:`fleetfuel.engine.cycle_logs`), so the main
 process never holds the fleet's samples. The logs also say where the types' independent cycle
 searches run (:meth:`CycleLogs.map`): one after the other here, on the engine's workers there.
@@ -13,6 +13,7 @@ searches run (:meth:`CycleLogs.map`): one after the other here, on the engine's 
 from __future__ import annotations
 
 from collections.abc import Callable, Collection, Sequence
+from dataclasses import dataclass
 from typing import Protocol, TypeVar
 
 import numpy as np
@@ -29,6 +30,15 @@ J = TypeVar("J")
 R = TypeVar("R")
 
 
+class PoolRows(Protocol):
+    """Where one type's pool rows are: read by :meth:`read` inside the type's search task (a small,
+    picklable note, so no rows travel to the task)."""
+
+    def read(self) -> pd.DataFrame:
+        """:func:`microtrip_rows` of the type's pool micro-trips (:data:`POOL_COLUMNS`)."""
+        ...
+
+
 class CycleLogs(Protocol):
     """The samples side of the cycles stage (see the module docstring)."""
 
@@ -36,8 +46,9 @@ class CycleLogs(Protocol):
         """Time in each SAFD cell of each type's micro-trips (``types``: microtrip_id -> type). [s]"""
         ...
 
-    def microtrip_rows(self, microtrip_ids: Collection[str]) -> pd.DataFrame:
-        """:func:`microtrip_rows` of the fleet's segmented samples (:data:`POOL_COLUMNS`)."""
+    def pool_rows(self, microtrip_ids: Collection[str]) -> PoolRows:
+        """Where the rows of ``microtrip_ids`` (:func:`microtrip_rows` of the fleet's segmented
+        samples) are read."""
         ...
 
     def map(self, fn: Callable[[J], R], jobs: Sequence[J], stage: str) -> list[R]:
@@ -74,9 +85,19 @@ class FrameLogs:
     def type_safd(self, types: pd.Series, cfg: CyclesConfig, segment_cfg: SegmentConfig) -> dict[str, FloatArray]:
         return type_safd_counts(self.samples, types, cfg, segment_cfg)
 
-    def microtrip_rows(self, microtrip_ids: Collection[str]) -> pd.DataFrame:
+    def pool_rows(self, microtrip_ids: Collection[str]) -> PoolRows:
         columns = [c for c in POOL_COLUMNS if c in self.samples.columns]
-        return microtrip_rows(self.samples[columns], microtrip_ids)
+        return HeldRows(microtrip_rows(self.samples[columns], microtrip_ids))
 
     def map(self, fn: Callable[[J], R], jobs: Sequence[J], stage: str) -> list[R]:
         return [fn(job) for job in jobs]
+
+
+@dataclass(frozen=True, slots=True)
+class HeldRows:
+    """:class:`PoolRows` already in memory (:class:`FrameLogs`: the searches run in this process)."""
+
+    rows: pd.DataFrame
+
+    def read(self) -> pd.DataFrame:
+        return self.rows

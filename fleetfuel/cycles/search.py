@@ -1,11 +1,14 @@
-"""One type's cycle search as a task: its pieces, the candidate sets, the best one on its trace.
+"""One type's cycle search as a task: its pool, the candidate sets, the best one on its trace.
 
 The types' searches are independent (each seeded with ``(seed, type number)``), so the stage
 hands them to :meth:`fleetfuel.cycles.logs.CycleLogs.map`, which may run them side by side in
-worker processes. A job carries only its type's share of the pool (:func:`type_search`): the
-type's pieces and the speed and grade of the rows they span, so it stays small whatever the
-number of types. The search and the judging see the same numbers in the same order as on the
-whole pool, so the chosen pieces do not depend on where the job ran.
+worker processes. A job (:class:`PoolSearch`) carries the type's pool micro-trips (feature rows)
+and a note of where their samples are (:class:`fleetfuel.cycles.logs.PoolRows`); the task reads
+the rows, cuts the type's pool of pieces (:func:`fleetfuel.cycles.pieces.build_pool`) and
+searches it (:func:`search_pool`). Pieces, their sums and SAFD are each one micro-trip's and the
+splice levels each one type's, so the type's pool holds the same numbers in the same order as its
+share of a pool cut for all types at once (:func:`type_search`, tested): the chosen pieces do not
+depend on where the job ran, and no rows travel through the engine's scheduler.
 """
 
 from __future__ import annotations
@@ -19,7 +22,8 @@ from fleetfuel import schema, segment
 from fleetfuel.cycles.assemble import Selection, cycle_trace, select_pieces
 from fleetfuel.cycles.chains import EXCESS_WEIGHT, FloatArray, IntArray
 from fleetfuel.cycles.config import CyclesConfig
-from fleetfuel.cycles.pieces import PiecePool
+from fleetfuel.cycles.logs import PoolRows
+from fleetfuel.cycles.pieces import PiecePool, build_pool
 from fleetfuel.cycles.safd import safd_difference, safd_of_trace
 from fleetfuel.cycles.stats import TARGET_STATS, normalised_errors, with_derived
 from fleetfuel.segment.config import SegmentConfig
@@ -48,15 +52,52 @@ class TypeSearch:
 
 
 @dataclass(frozen=True, slots=True)
+class PoolSearch:
+    """The search of type ``key`` (number ``number``), its pool cut where the job runs.
+
+    ``microtrips`` are the type's pool rows of the feature table
+    (:func:`fleetfuel.cycles.pieces.pool_microtrips`), ``rows`` where their samples are, and
+    ``type_safd`` the type's SAFD: time per cell (``counts``) and shares (``shares``). [s, 1]
+    """
+
+    key: str
+    number: int
+    target: FloatArray
+    counts: FloatArray
+    shares: FloatArray
+    microtrips: pd.DataFrame
+    rows: PoolRows
+    step_s: float
+    cfg: CyclesConfig
+    segment_cfg: SegmentConfig
+
+
+@dataclass(frozen=True, slots=True)
 class TypeCycle:
-    """What :func:`search_type` found: the chosen pieces (rows of the whole pool, cycle order),
-    the cycle, its statistics (:data:`TARGET_STATS`), SAFD and SAFD difference to the type."""
+    """What :func:`search_type` found: the chosen pieces (rows of the searched pool, cycle order),
+    the cycle, its statistics (:data:`TARGET_STATS`), SAFD and SAFD difference to the type, and
+    the chosen pieces' rows of the pool table (:data:`fleetfuel.cycles.pieces.PIECE_COLUMNS`)."""
 
     selection: Selection
     trace: pd.DataFrame
     achieved: FloatArray
     safd: FloatArray
     safd_diff: float
+    pieces: pd.DataFrame
+
+
+def search_pool(job: PoolSearch) -> TypeCycle | None:
+    """Read the type's pool rows, cut its pool and search it (:func:`search_type`); None when the
+    type has too little eligible driving for the target duration."""
+    if job.microtrips.empty:
+        return None
+    samples = job.rows.read()
+    if samples.empty:
+        return None
+    counts = {job.key: job.counts} if job.counts.size else {}
+    pool = build_pool(samples, job.microtrips, job.step_s, counts, job.cfg, job.segment_cfg)
+    return search_type(type_search(pool, samples, job.key, job.number, job.target, job.shares, job.cfg,
+                                   job.segment_cfg))
 
 
 def type_search(
@@ -96,7 +137,7 @@ def search_type(job: TypeSearch) -> TypeCycle | None:
     _, _, trace, achieved, safd, diff = judged[best]
     chosen = options[best]
     selection = Selection(pieces=job.pool_rows[chosen.pieces], score=chosen.score, evaluated=chosen.evaluated)
-    return TypeCycle(selection, trace, achieved, safd, diff)
+    return TypeCycle(selection, trace, achieved, safd, diff, job.pool.table.iloc[chosen.pieces].reset_index(drop=True))
 
 
 def _judge(job: TypeSearch, option: Selection) -> tuple[int, float, pd.DataFrame, FloatArray, FloatArray, float]:

@@ -3,11 +3,11 @@
 :class:`fleetfuel.cycles.logs.CycleLogs` asks for two things. Each type's SAFD over all its
 measured driving is one task per partition (:func:`partition_type_safd`: its rows read, its
 kinematics trip by trip, a few small arrays back); the main process adds the partitions' counts in
-fleet order, so the sum does not depend on the engine. The pool's rows (at most
-``CyclesConfig.pool_max_s`` of driving per type) are read back in the main process, partition by
-partition, only the trips holding the pool's micro-trips (rows filtered by trip id in pyarrow).
-The types' cycle searches run on the engine as well, one task per type (:mod:`fleetfuel.cycles.search`).
-The main process never holds the fleet's samples.
+fleet order, so the sum does not depend on the engine. Each type's cycle search is a task too
+(:mod:`fleetfuel.cycles.search`); it reads its pool's rows (at most ``CyclesConfig.pool_max_s`` of
+driving) itself, partition by partition, only the trips holding the pool's micro-trips (rows
+filtered by trip id in pyarrow), from the note :meth:`WorkFolderCycleLogs.pool_rows` gives it
+(:class:`WorkFolderRows`). The main process never holds the fleet's samples, nor the pool's rows.
 """
 
 from __future__ import annotations
@@ -71,6 +71,34 @@ def partition_type_safd(job: SafdJob) -> dict[str, FloatArray]:
     return type_safd_counts(samples, types, job.cycles, job.segment)
 
 
+@dataclass(frozen=True, slots=True)
+class WorkFolderRows:
+    """:class:`fleetfuel.cycles.logs.PoolRows` in the work folder: ``(partition key, trip ids,
+    micro-trip ids)`` of each partition holding some, in fleet order."""
+
+    work: str
+    parts: tuple[tuple[str, tuple[str, ...], tuple[str, ...]], ...]
+
+    def read(self) -> pd.DataFrame:
+        """:func:`fleetfuel.cycles.logs.microtrip_rows` of the listed micro-trips, read partition
+        by partition (only their trips' rows, filtered in pyarrow); the id columns categorical
+        (:data:`POOL_ID_COLUMNS`: a few thousand names over up to a hundred thousand rows)."""
+        work, parts = WorkFolder(Path(self.work)), []
+        for key, trips, microtrips in self.parts:
+            rows = read_trip_rows(work.table("samples", key), POOL_COLUMNS, trips)
+            if rows is not None:
+                part = microtrip_rows(rows, microtrips)
+                parts.append(part.astype({c: pd.CategoricalDtype(pd.Index(part[c].dropna().unique(), dtype="string"))
+                                          for c in POOL_ID_COLUMNS}))
+        if not parts:
+            return pd.DataFrame({c: pd.Series([], dtype="string") for c in POOL_COLUMNS})
+        pool = pd.DataFrame({c: union_categoricals([p[c] for p in parts]) if c in POOL_ID_COLUMNS
+                             else pd.concat([p[c] for p in parts], ignore_index=True) for c in POOL_COLUMNS})
+        del parts
+        release_free_memory()  # the partitions' whole trips, read and cut down to the pool's rows
+        return pool
+
+
 class WorkFolderCycleLogs:
     """:class:`fleetfuel.cycles.logs.CycleLogs` answered from the work folder (see the module docstring).
 
@@ -110,24 +138,13 @@ class WorkFolderCycleLogs:
                 total[name] = total[name] + counts if name in total else np.array(counts, dtype=np.float64)
         return dict(sorted(total.items()))
 
-    def microtrip_rows(self, microtrip_ids: Collection[str]) -> pd.DataFrame:
-        """:func:`fleetfuel.cycles.logs.microtrip_rows` of the fleet, read partition by partition;
-        the id columns categorical (:data:`POOL_ID_COLUMNS`: a few thousand names over hundreds
-        of thousands of rows, a code each instead of a text)."""
-        parts = []
-        for key, mine in self._by_partition(self._ids[schema.MICROTRIP_ID].isin(pd.Index(list(microtrip_ids)))):
-            rows = read_trip_rows(self.fleet.work.table("samples", key), POOL_COLUMNS, set(mine[schema.TRIP_ID]))
-            if rows is not None:
-                part = microtrip_rows(rows, mine[schema.MICROTRIP_ID])
-                parts.append(part.astype({c: pd.CategoricalDtype(pd.Index(part[c].dropna().unique(), dtype="string"))
-                                          for c in POOL_ID_COLUMNS}))
-        if not parts:
-            return pd.DataFrame({c: pd.Series([], dtype="string") for c in POOL_COLUMNS})
-        pool = pd.DataFrame({c: union_categoricals([p[c] for p in parts]) if c in POOL_ID_COLUMNS
-                             else pd.concat([p[c] for p in parts], ignore_index=True) for c in POOL_COLUMNS})
-        del parts
-        release_free_memory()  # the partitions' whole trips, read and cut down to the pool's rows
-        return pool
+    def pool_rows(self, microtrip_ids: Collection[str]) -> WorkFolderRows:
+        """Where the rows of ``microtrip_ids`` are in the work folder: each partition holding any,
+        in fleet order, with its trips to read and its micro-trips wanted."""
+        wanted = self._ids[schema.MICROTRIP_ID].isin(pd.Index(list(microtrip_ids)))
+        parts = tuple((key, tuple(sorted(set(mine[schema.TRIP_ID]))), tuple(mine[schema.MICROTRIP_ID]))
+                      for key, mine in self._by_partition(wanted))
+        return WorkFolderRows(str(self.fleet.work.root), parts)
 
     def map(self, fn: Callable[[J], R], jobs: Sequence[J], stage: str) -> list[R]:
         return self.fleet.run_round(self.engine, fn, list(jobs), stage)

@@ -167,26 +167,33 @@ def test_same_input_same_summary_bytes(run: pipeline.CyclesResult, samples: pd.D
 
 
 def test_a_type_job_searches_the_same_problem_as_the_whole_pool(run: pipeline.CyclesResult, samples: pd.DataFrame) -> None:
-    # A type's search job carries only its pieces and the rows they span (fleetfuel.cycles.search);
-    # the search must see the same arrays in the same order as on the whole pool, and each piece
-    # the same trace, so where the job runs cannot change the cycle.
+    # A type's search task cuts its own pool from its own rows (fleetfuel.cycles.search); it must
+    # see the same arrays in the same order as that type's share of a pool cut for all types at
+    # once, and each piece the same trace, so where the job runs cannot change the cycle.
     cfg, seg_cfg = CyclesConfig(), segment.SegmentConfig()
     table = run.cycles.microtrips
     in_pool = table.loc[pool_microtrips(table, cfg)]
-    rows = FrameLogs(samples).microtrip_rows(in_pool[schema.MICROTRIP_ID].astype(str).tolist())
-    type_safd = FrameLogs(samples).type_safd(safd_types(table), cfg, seg_cfg)
+    logs = FrameLogs(samples)
+    rows = logs.pool_rows(in_pool[schema.MICROTRIP_ID].astype(str).tolist()).read()
+    type_safd = logs.type_safd(safd_types(table), cfg, seg_cfg)
     pool = build_pool(rows, in_pool, run.cycles.step_s, type_safd, cfg, seg_cfg)
     target = np.zeros(len(TARGET_STATS))
     for number, name in enumerate(run.cycles.types["type"]):
-        job = type_search(pool, rows, name, number, target, np.zeros(1), cfg, seg_cfg)
-        whole, mine = _problem(pool, name, target, cfg), _problem(job.pool, name, target, cfg)
-        np.testing.assert_array_equal(job.pool_rows[mine.idx], whole.idx)
+        share = type_search(pool, rows, name, number, target, np.zeros(1), cfg, seg_cfg)
+        mine = in_pool.loc[(in_pool["type"] == name).to_numpy(dtype=bool, na_value=False)]
+        own_rows = logs.pool_rows(mine[schema.MICROTRIP_ID].astype(str).tolist()).read()
+        own_pool = build_pool(own_rows, mine, run.cycles.step_s, {name: type_safd[name]}, cfg, seg_cfg)
+        job = type_search(own_pool, own_rows, name, number, target, np.zeros(1), cfg, seg_cfg)
+        assert len(job.pool_rows) == len(share.pool_rows) > 0
+        pd.testing.assert_frame_equal(job.pool.table, share.pool.table)
+        whole, mine_p = _problem(pool, name, target, cfg), _problem(job.pool, name, target, cfg)
+        np.testing.assert_array_equal(share.pool_rows[mine_p.idx], whole.idx)
         for field in ("kind", "entry", "exit", "duration", "sums", "hist", "target_p"):
-            np.testing.assert_array_equal(getattr(mine, field), getattr(whole, field), err_msg=field)
+            np.testing.assert_array_equal(getattr(mine_p, field), getattr(whole, field), err_msg=field)
         for piece in range(0, len(job.pool_rows), max(1, len(job.pool_rows) // 25)):  # a spread of pieces
             pd.testing.assert_frame_equal(cycle_trace(job.samples, job.pool, np.array([piece])),
-                                          cycle_trace(rows, pool, job.pool_rows[[piece]]))
-    # the chosen pieces come back as rows of the whole pool: each cycle's pieces are of its type
+                                          cycle_trace(rows, pool, share.pool_rows[[piece]]))
+    # each cycle's pieces are pieces of its type's pool
     comp = run.cycles.composition.merge(pool.table[["piece_id", "type"]], on="piece_id", suffixes=("", "_in_pool"))
     assert len(comp) == len(run.cycles.composition)
     assert (comp["type"] == comp["type_in_pool"]).all()
