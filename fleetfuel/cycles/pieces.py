@@ -281,10 +281,11 @@ def type_safd_counts(
 def safd_types(microtrips: pd.DataFrame) -> pd.Series:
     """microtrip_id -> type of the micro-trips a type's SAFD counts (``measured``, else ``eligible``)."""
     flag = "measured" if "measured" in microtrips.columns else "eligible"
-    rows = microtrips.loc[microtrips[flag].to_numpy(dtype=bool) & microtrips["type"].notna().to_numpy()]
-    # Arrow-backed texts, not a Python object per micro-trip and column (a big fleet has ~10^6)
-    return pd.Series(rows["type"].astype("string").array,
-                     index=pd.Index(rows[schema.MICROTRIP_ID].astype("string"), name=None), dtype="string")
+    keep = microtrips[flag].to_numpy(dtype=bool) & microtrips["type"].notna().to_numpy()
+    # two columns masked, not the table's rows copied; Arrow-backed texts, not a Python object per
+    # micro-trip (a big fleet has ~10^6)
+    ids = microtrips[schema.MICROTRIP_ID].astype("string").array[keep]
+    return pd.Series(microtrips["type"].astype("string").array[keep], index=pd.Index(ids), dtype="string")
 
 
 def pool_microtrips(microtrips: pd.DataFrame, cfg: CyclesConfig) -> npt.NDArray[np.bool_]:

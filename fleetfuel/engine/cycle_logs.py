@@ -20,6 +20,8 @@ from typing import TypeVar
 import numpy as np
 import numpy.typing as npt
 import pandas as pd
+import pyarrow as pa
+import pyarrow.compute as pc
 from pandas.api.types import union_categoricals
 
 from fleetfuel import schema
@@ -38,6 +40,12 @@ POOL_ID_COLUMNS = (schema.VEHICLE_ID, *schema.SEGMENT_ID_COLUMNS)
 """The pool rows' columns held as categoricals (:meth:`WorkFolderCycleLogs.microtrip_rows`)."""
 SAFD_COLUMNS = (schema.TIME_UTC, schema.SPEED_M_S, schema.TRIP_ID, schema.MICROTRIP_ID)
 """The columns a SAFD task reads (kinematics trip by trip, micro-trip of each row)."""
+
+
+def _arrow(values: pd.Series | pd.Index) -> pa.Array:
+    """``values`` as one Arrow string array (no copy for Arrow-backed texts of one chunk)."""
+    array = pa.array(values.astype("string").array)
+    return array.combine_chunks() if isinstance(array, pa.ChunkedArray) else array
 
 
 @dataclass(frozen=True, slots=True)
@@ -127,7 +135,12 @@ class WorkFolderCycleLogs:
 
     def type_safd(self, types: pd.Series, cfg: CyclesConfig, segment_cfg: SegmentConfig) -> dict[str, FloatArray]:
         names = tuple(sorted(str(name) for name in types.unique()))
-        codes = pd.Categorical(self._ids[schema.MICROTRIP_ID].map(types), categories=list(names)).codes
+        # micro-trip id -> type by Arrow's hash lookup (no Python text per micro-trip)
+        at = pc.index_in(_arrow(self._ids[schema.MICROTRIP_ID]), value_set=_arrow(types.index)).to_numpy(
+            zero_copy_only=False)
+        found = ~np.isnan(at)
+        codes = np.full(len(self._ids), -1, dtype=np.int8)
+        codes[found] = pd.Categorical(types.array, categories=list(names)).codes[at[found].astype(np.int64)]
         by_key = pd.Series(codes, index=self._ids.index).groupby(self._ids[_KEY], sort=False, observed=True)
         jobs = [SafdJob(str(key), str(self.fleet.work.root), part.to_numpy(dtype=np.int8), names, cfg, segment_cfg)
                 for key, part in by_key if (part.to_numpy() >= 0).any()]
