@@ -40,6 +40,8 @@ from typing import Final
 import numpy as np
 import numpy.typing as npt
 import pandas as pd
+import pyarrow as pa
+import pyarrow.compute as pc
 
 from fleetfuel import schema, segment
 from fleetfuel.cycles.config import CyclesConfig
@@ -299,14 +301,17 @@ def pool_microtrips(microtrips: pd.DataFrame, cfg: CyclesConfig) -> npt.NDArray[
     long_mt = duration > cfg.max_piece_share * cfg.target_duration_s
     measured = microtrips["measured"].to_numpy(dtype=bool) if "measured" in microtrips.columns else False
     chosen = microtrips["eligible"].to_numpy(dtype=bool) | (measured & long_mt)
-    types = microtrips["type"].astype("string").to_numpy(dtype=object, na_value=None)
-    ids = microtrips[schema.MICROTRIP_ID].astype(str).to_numpy()
+    # type codes and the id order from Arrow (no Python text per micro-trip: a big fleet has ~10^6)
+    codes, names = pd.factorize(microtrips["type"].astype("string"), use_na_sentinel=True)
+    id_rank = np.empty(len(microtrips), dtype=np.int64)
+    id_rank[pc.sort_indices(pa.array(microtrips[schema.MICROTRIP_ID].astype("string").array)).to_numpy()] = (
+        np.arange(len(microtrips)))
     rng = np.random.default_rng(cfg.seed)
-    for name in sorted({t for t in types[chosen] if t is not None}):
-        members = np.flatnonzero(chosen & (types == name))
+    for code in sorted(set(codes[chosen & (codes >= 0)].tolist()), key=lambda c: str(names[c])):
+        members = np.flatnonzero(chosen & (codes == code))
         if duration[members].sum() <= cfg.pool_max_s:
             continue
-        drawn = members[np.argsort(ids[members], kind="stable")][rng.permutation(members.size)]
+        drawn = members[np.argsort(id_rank[members], kind="stable")][rng.permutation(members.size)]
         keep = np.cumsum(duration[drawn]) - duration[drawn] < cfg.pool_max_s
         chosen[drawn[~keep]] = False
     return chosen

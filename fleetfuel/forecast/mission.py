@@ -126,11 +126,14 @@ def shift_distances(microtrips: pd.DataFrame) -> pd.DataFrame:
         ``route``, ``period_id``, ``type`` (``"(none)"`` for micro-trips without one),
         ``distance_km`` [km], ``duration_h`` [h].
     """
+    def text(name: str) -> pd.Series:  # Arrow-backed texts, not a Python object per micro-trip
+        return microtrips[name].astype("string").fillna("(none)").astype(str).reset_index(drop=True)
+
     frame = pd.DataFrame(
         {
-            schema.ROUTE: microtrips[schema.ROUTE].astype("string").fillna("(none)").astype(str).to_numpy(),
-            schema.PERIOD_ID: microtrips[schema.PERIOD_ID].astype(str).to_numpy(),
-            "type": microtrips["type"].astype("string").fillna("(none)").astype(str).to_numpy(),
+            schema.ROUTE: text(schema.ROUTE),
+            schema.PERIOD_ID: microtrips[schema.PERIOD_ID].astype(str).reset_index(drop=True),
+            "type": text("type"),
             "distance_km": microtrips["distance_m"].to_numpy(dtype=np.float64, na_value=0.0) / METRES_PER_KM,
             "duration_h": microtrips["duration_s"].to_numpy(dtype=np.float64, na_value=0.0) / SECONDS_PER_HOUR,
         }
