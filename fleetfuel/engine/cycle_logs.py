@@ -29,13 +29,12 @@ from fleetfuel.cycles.config import CyclesConfig
 from fleetfuel.cycles.logs import POOL_COLUMNS, microtrip_rows
 from fleetfuel.cycles.pieces import FloatArray, type_safd_counts
 from fleetfuel.engine.executors import Engine, release_free_memory
-from fleetfuel.engine.stream import PreparedFleet
-from fleetfuel.engine.workdir import WorkFolder, read_frames, read_keyed_frames, read_trip_rows
+from fleetfuel.engine.stream import PARTITION_KEY, PreparedFleet
+from fleetfuel.engine.workdir import WorkFolder, read_frames, read_trip_rows
 from fleetfuel.segment.config import SegmentConfig
 
 J = TypeVar("J")
 R = TypeVar("R")
-_KEY = "partition"  # column of the partition key in the fleet's micro-trip id table
 POOL_ID_COLUMNS = (schema.VEHICLE_ID, *schema.SEGMENT_ID_COLUMNS)
 """The pool rows' columns held as categoricals (:meth:`WorkFolderCycleLogs.microtrip_rows`)."""
 SAFD_COLUMNS = (schema.TIME_UTC, schema.SPEED_M_S, schema.TRIP_ID, schema.MICROTRIP_ID)
@@ -119,19 +118,14 @@ class WorkFolderCycleLogs:
 
     def __init__(self, fleet: PreparedFleet, engine: Engine) -> None:
         self.fleet, self.engine = fleet, engine
-        # One table of the fleet's micro-trips (a few hundred thousand rows for a big fleet), so a
-        # lookup is one hash pass over the fleet, not one per partition; ids as Arrow strings, the
-        # partition key a categorical, read in batches (measured on 3534 partitions, 382,479
-        # micro-trips: +68 MiB in 2.6 s, against +118 MiB in 9.2 s read file by file as Python texts).
-        ids = read_keyed_frames({w.key: fleet.work.table("features", w.key) for w in fleet.partitions},
-                                (schema.MICROTRIP_ID, schema.TRIP_ID), _KEY)
-        self._ids = ids if ids is not None else pd.DataFrame(
-            {c: pd.Series([], dtype="string") for c in (schema.MICROTRIP_ID, schema.TRIP_ID, _KEY)})
+        # The fleet's micro-trips with their partitions, one table (columns of the fleet's feature
+        # table, not copies), so a lookup is one hash pass over the fleet, not one per partition.
+        self._ids = fleet.microtrip_partitions()
 
     def _by_partition(self, mask: pd.Series) -> list[tuple[str, pd.DataFrame]]:
         """The rows of :attr:`_ids` under ``mask``, per partition in fleet order."""
         chosen = self._ids.loc[mask]
-        return [(str(key), rows) for key, rows in chosen.groupby(_KEY, sort=False, observed=True)]
+        return [(str(key), rows) for key, rows in chosen.groupby(PARTITION_KEY, sort=False, observed=True)]
 
     def type_safd(self, types: pd.Series, cfg: CyclesConfig, segment_cfg: SegmentConfig) -> dict[str, FloatArray]:
         names = tuple(sorted(str(name) for name in types.unique()))
@@ -141,7 +135,7 @@ class WorkFolderCycleLogs:
         found = ~np.isnan(at)
         codes = np.full(len(self._ids), -1, dtype=np.int8)
         codes[found] = pd.Categorical(types.array, categories=list(names)).codes[at[found].astype(np.int64)]
-        by_key = pd.Series(codes, index=self._ids.index).groupby(self._ids[_KEY], sort=False, observed=True)
+        by_key = pd.Series(codes, index=self._ids.index).groupby(self._ids[PARTITION_KEY], sort=False, observed=True)
         jobs = [SafdJob(str(key), str(self.fleet.work.root), part.to_numpy(dtype=np.int8), names, cfg, segment_cfg)
                 for key, part in by_key if (part.to_numpy() >= 0).any()]
         parts = self.fleet.run_round(self.engine, partition_type_safd, jobs, "type safd")

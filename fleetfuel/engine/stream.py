@@ -35,13 +35,15 @@ from fleetfuel.engine.tasks import (
     plan_vehicle,
     read_file,
 )
-from fleetfuel.engine.workdir import WorkFolder, file_fingerprint, read_frames, read_json
+from fleetfuel.engine.workdir import WorkFolder, file_fingerprint, read_frames, read_json, read_keyed_frames
 from fleetfuel.ingest.base import FileFailure, LogBatch, LogFile, empty_dropped, empty_raw_frame
 from fleetfuel.ingest.dispatch import expand_paths
 from fleetfuel.ingest.profiles import load_profile
 
 J = TypeVar("J")
 R = TypeVar("R")
+PARTITION_KEY = "partition"
+"""Column of a micro-trip's partition key (:meth:`PreparedFleet.microtrip_partitions`)."""
 
 
 @dataclass(frozen=True)
@@ -83,11 +85,25 @@ class PreparedFleet:
         return frame
 
     @cached_property
+    def _keyed_features(self) -> pd.DataFrame:
+        frame = read_keyed_frames({w.key: self.work.table("features", w.key) for w in self.partitions}, None,
+                                  PARTITION_KEY)
+        release_free_memory()  # the read's Arrow tables: the frame is a fraction of their peak
+        return pd.DataFrame(columns=[PARTITION_KEY]) if frame is None else frame
+
+    @cached_property
     def features(self) -> pd.DataFrame:
         """Micro-trip feature table of every partition (sorted by vehicle and start time)."""
-        frame = read_frames(self._paths("features"))
-        release_free_memory()  # the read's Arrow tables: the frame is a fraction of their peak
-        return pd.DataFrame() if frame is None else frame
+        return self._keyed_features.drop(columns=[PARTITION_KEY])  # copy-on-write: the same columns
+
+    def microtrip_partitions(self) -> pd.DataFrame:
+        """``microtrip_id``, ``trip_id`` and the partition key (:data:`PARTITION_KEY`, categorical)
+        of every micro-trip, in fleet order (columns shared with :attr:`features`)."""
+        frame = self._keyed_features
+        if frame.empty:
+            return pd.DataFrame({c: pd.Series([], dtype="string") for c in (schema.MICROTRIP_ID, schema.TRIP_ID,
+                                                                             PARTITION_KEY)})
+        return frame[[schema.MICROTRIP_ID, schema.TRIP_ID, PARTITION_KEY]]
 
     @cached_property
     def trips(self) -> pd.DataFrame:

@@ -84,7 +84,7 @@ def read_frames(paths: Iterable[Path], columns: Sequence[str] | None = None) -> 
     return None if table is None else _to_frame(table)
 
 
-def read_keyed_frames(paths: Mapping[str, Path], columns: Sequence[str], key_column: str) -> pd.DataFrame | None:
+def read_keyed_frames(paths: Mapping[str, Path], columns: Sequence[str] | None, key_column: str) -> pd.DataFrame | None:
     """:func:`read_frames` of ``paths`` (key -> file, in order) with the key of each row's file in
     ``key_column``, a categorical (a code per row, not a text: the keys are long and repeat)."""
     keys = [key for key, path in paths.items() if path.is_file()]
