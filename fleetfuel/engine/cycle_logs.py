@@ -36,7 +36,7 @@ from fleetfuel.segment.config import SegmentConfig
 J = TypeVar("J")
 R = TypeVar("R")
 POOL_ID_COLUMNS = (schema.VEHICLE_ID, *schema.SEGMENT_ID_COLUMNS)
-"""The pool rows' columns held as categoricals (:meth:`WorkFolderCycleLogs.microtrip_rows`)."""
+"""The pool rows' columns held as categoricals (:meth:`WorkFolderRows.read`)."""
 SAFD_COLUMNS = (schema.TIME_UTC, schema.SPEED_M_S, schema.TRIP_ID, schema.MICROTRIP_ID)
 """The columns a SAFD task reads (kinematics trip by trip, micro-trip of each row)."""
 
