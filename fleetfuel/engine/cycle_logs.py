@@ -90,10 +90,6 @@ class WorkFolderRows:
         """:func:`fleetfuel.cycles.logs.microtrip_rows` of the listed micro-trips, read partition
         by partition (only their trips' rows, filtered in pyarrow); the id columns categorical
         (:data:`POOL_ID_COLUMNS`: a few thousand names over up to a hundred thousand rows)."""
-        # A long-lived worker's freed heap handed back first: the read adds ~150 MiB to what its
-        # earlier tasks left mapped (two 640 MiB Dask workers were restarted past their limit here
-        # on a 3534-partition fleet without it).
-        release_free_memory()
         work, parts = WorkFolder(Path(self.work)), []
         for key, trips, microtrips in self.parts:
             rows = read_trip_rows(work.table("samples", key), POOL_COLUMNS, trips)
