@@ -57,7 +57,8 @@ class PoolSearch:
 
     ``microtrips`` are the type's pool rows of the feature table
     (:func:`fleetfuel.cycles.pieces.pool_microtrips`), ``rows`` where their samples are, and
-    ``type_safd`` the type's SAFD: time per cell (``counts``) and shares (``shares``). [s, 1]
+    ``counts`` and ``shares`` the type's SAFD over all its measured driving: time per cell (empty
+    when it has none) and the same as shares, shaped as :func:`fleetfuel.cycles.safd.safd_shape`. [s, 1]
     """
 
     key: str

@@ -36,7 +36,7 @@ def both(tmp_path_factory: pytest.TempPathFactory):
 
 
 def _types(features: pd.DataFrame) -> pd.Series:
-    """Every other micro-trip typed T1 or T2 (the rest untyped): an assignment of the stage's shape."""
+    """Every third micro-trip T2, the others T1, one in five untyped: an assignment of the stage's shape."""
     ids = features[schema.MICROTRIP_ID].astype("string")
     names = np.where(np.arange(len(ids)) % 3 == 0, "T2", "T1")
     keep = np.arange(len(ids)) % 5 != 4
